@@ -1,0 +1,250 @@
+package api
+
+import (
+	"net/http"
+	"time"
+
+	"github.com/gin-gonic/gin"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// airframeInput is what a client may set on an airframe.
+type airframeInput struct {
+	Code            string   `json:"code"`
+	Name            string   `json:"name"`
+	Model           string   `json:"model"`
+	Layout          string   `json:"layout"`
+	CellsS          int      `json:"cells_s"`
+	PacksPerFlight  int      `json:"packs_per_flight"`
+	EmptyMassG      *float64 `json:"empty_mass_g"`
+	MTOWG           *float64 `json:"mtow_g"`
+	RotorDiameterMM *float64 `json:"rotor_diameter_mm"`
+	HoldReason      *string  `json:"hold_reason"`
+	Notes           string   `json:"notes"`
+}
+
+var airframeWritable = []string{"code", "name", "model", "layout", "cells_s", "packs_per_flight",
+	"empty_mass_g", "mtow_g", "rotor_diameter_mm", "hold_reason", "notes"}
+
+func (s *Server) createAirframe(c *gin.Context) {
+	in := airframeInput{PacksPerFlight: 1}
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	a, err := s.db.CreateAirframe(c.Request.Context(), &fleet.Airframe{
+		Code: in.Code, Name: in.Name, Model: in.Model, Layout: in.Layout, CellsS: in.CellsS,
+		PacksPerFlight: in.PacksPerFlight, EmptyMassG: in.EmptyMassG, MTOWG: in.MTOWG,
+		RotorDiameterMM: in.RotorDiameterMM, HoldReason: in.HoldReason, Notes: in.Notes,
+	})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.Header("Location", "/v1/airframes/"+a.ID)
+	writeOne(c, http.StatusCreated, a.Version, a)
+}
+
+func (s *Server) listAirframes(c *gin.Context) {
+	p, err := pageOf(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	f := store.AirframeFilter{Status: c.Query("status"), Model: c.Query("model"), Layout: c.Query("layout")}
+	list, next, err := s.db.Airframes(c.Request.Context(), f, p)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, list, next)
+}
+
+func (s *Server) getAirframe(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	a, err := s.db.Airframe(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, a.Version, a)
+}
+
+func (s *Server) patchAirframe(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	version, err := ifMatch(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	body, err := s.readBody(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	a, err := s.db.UpdateAirframe(c.Request.Context(), id, version, func(a *fleet.Airframe) error {
+		in := airframeInput{Code: a.Code, Name: a.Name, Model: a.Model, Layout: a.Layout, CellsS: a.CellsS,
+			PacksPerFlight: a.PacksPerFlight, EmptyMassG: a.EmptyMassG, MTOWG: a.MTOWG,
+			RotorDiameterMM: a.RotorDiameterMM, HoldReason: a.HoldReason, Notes: a.Notes}
+		if err := applyMergePatch(body, &in, airframeWritable...); err != nil {
+			return err
+		}
+		a.Code, a.Name, a.Model, a.Layout, a.CellsS = in.Code, in.Name, in.Model, in.Layout, in.CellsS
+		a.PacksPerFlight, a.EmptyMassG, a.MTOWG = in.PacksPerFlight, in.EmptyMassG, in.MTOWG
+		a.RotorDiameterMM, a.HoldReason, a.Notes = in.RotorDiameterMM, in.HoldReason, in.Notes
+		return nil
+	})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, a.Version, a)
+}
+
+// retireAirframe answers DELETE: records of an aircraft must be kept, so the
+// airframe is retired (its fitted parts removed), never erased.
+func (s *Server) retireAirframe(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	version, err := ifMatch(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	a, err := s.db.RetireAirframe(c.Request.Context(), id, version)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, a.Version, a)
+}
+
+type fitInput struct {
+	PartID   string     `json:"part_id"`
+	Position string     `json:"position"`
+	At       *time.Time `json:"at"`
+}
+
+func (s *Server) createFit(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	var in fitInput
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	partID, err := store.ParseID("part_id", in.PartID)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	r := store.FitRequest{PartID: partID, Position: in.Position}
+	if in.At != nil {
+		r.At = *in.At
+	}
+	f, err := s.db.Fit(c.Request.Context(), id, r)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusCreated, f)
+}
+
+type removalInput struct {
+	PartID string     `json:"part_id"`
+	At     *time.Time `json:"at"`
+	Reason string     `json:"reason"`
+}
+
+func (s *Server) createRemoval(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	var in removalInput
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	partID, err := store.ParseID("part_id", in.PartID)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	r := store.RemovalRequest{PartID: partID, Reason: in.Reason}
+	if in.At != nil {
+		r.At = *in.At
+	}
+	f, err := s.db.Remove(c.Request.Context(), id, r)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusCreated, f)
+}
+
+func (s *Server) getFitment(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	at := time.Now()
+	if t, err := queryTime(c, "at"); err != nil {
+		s.fail(c, err)
+		return
+	} else if t != nil {
+		at = *t
+	}
+	fm, err := s.db.Fitment(c.Request.Context(), id, at)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusOK, fm)
+}
+
+func (s *Server) listLayouts(c *gin.Context) {
+	list, err := s.db.Layouts(c.Request.Context())
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, list, "")
+}
+
+type layoutInput struct {
+	Name      string           `json:"name"`
+	Positions []fleet.Position `json:"positions"`
+}
+
+func (s *Server) createLayout(c *gin.Context) {
+	var in layoutInput
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	l, err := s.db.CreateLayout(c.Request.Context(), &fleet.Layout{Name: in.Name, Positions: in.Positions})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusCreated, l)
+}

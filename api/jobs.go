@@ -1,0 +1,140 @@
+package api
+
+import (
+	"encoding/csv"
+	"net/http"
+	"strconv"
+	"time"
+
+	"github.com/gin-gonic/gin"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+type jobInput struct {
+	Code     string  `json:"code"`
+	Client   string  `json:"client"`
+	Site     string  `json:"site"`
+	StartsOn *string `json:"starts_on"`
+	EndsOn   *string `json:"ends_on"`
+	Notes    string  `json:"notes"`
+}
+
+var jobWritable = []string{"code", "client", "site", "starts_on", "ends_on", "notes"}
+
+func (s *Server) createJob(c *gin.Context) {
+	var in jobInput
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	j, err := s.db.CreateJob(c.Request.Context(), &fleet.Job{Code: in.Code, Client: in.Client, Site: in.Site,
+		StartsOn: in.StartsOn, EndsOn: in.EndsOn, Notes: in.Notes})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.Header("Location", "/v1/jobs/"+j.ID)
+	writeOne(c, http.StatusCreated, j.Version, j)
+}
+
+func (s *Server) listJobs(c *gin.Context) {
+	p, err := pageOf(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	list, next, err := s.db.Jobs(c.Request.Context(), store.JobFilter{Client: c.Query("client"), Code: c.Query("code")}, p)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, list, next)
+}
+
+func (s *Server) getJob(c *gin.Context) {
+	id, err := pathID(c, "job")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	j, err := s.db.Job(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, j.Version, j)
+}
+
+func (s *Server) patchJob(c *gin.Context) {
+	id, err := pathID(c, "job")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	version, err := ifMatch(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	body, err := s.readBody(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	j, err := s.db.UpdateJob(c.Request.Context(), id, version, func(j *fleet.Job) error {
+		in := jobInput{Code: j.Code, Client: j.Client, Site: j.Site, StartsOn: j.StartsOn, EndsOn: j.EndsOn, Notes: j.Notes}
+		if err := applyMergePatch(body, &in, jobWritable...); err != nil {
+			return err
+		}
+		j.Code, j.Client, j.Site, j.StartsOn, j.EndsOn, j.Notes = in.Code, in.Client, in.Site, in.StartsOn, in.EndsOn, in.Notes
+		return nil
+	})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, j.Version, j)
+}
+
+// jobManifest answers "which parts flew on this job", as JSON or, with
+// ?format=csv, one spreadsheet row per flight and part (packs included).
+func (s *Server) jobManifest(c *gin.Context) {
+	id, err := pathID(c, "job")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	format := c.DefaultQuery("format", "json")
+	if format != "json" && format != "csv" {
+		s.fail(c, fleet.FieldError("format", "must be json or csv"))
+		return
+	}
+	m, err := s.db.Manifest(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	if format == "json" {
+		c.JSON(http.StatusOK, m)
+		return
+	}
+	c.Header("Content-Type", "text/csv; charset=utf-8")
+	c.Header("Content-Disposition", `attachment; filename="manifest-`+m.Job.Code+`.csv"`)
+	c.Status(http.StatusOK)
+	w := csv.NewWriter(c.Writer)
+	_ = w.Write([]string{"job", "flight_id", "airframe", "pilot", "takeoff_at", "landing_at", "hours",
+		"kind", "position", "serial", "part_number", "lot"})
+	for _, f := range m.Flights {
+		head := []string{m.Job.Code, f.FlightID, f.AirframeCode, f.Pilot, f.TakeoffAt.UTC().Format(time.RFC3339),
+			f.LandingAt.UTC().Format(time.RFC3339), strconv.FormatFloat(f.Hours, 'f', 4, 64)}
+		for _, p := range f.Parts {
+			_ = w.Write(append(head[:len(head):len(head)], string(p.Kind), p.Position, p.Serial, p.PartNumber, p.Lot))
+		}
+		for _, p := range f.Packs {
+			_ = w.Write(append(head[:len(head):len(head)], "pack", "slot "+strconv.Itoa(p.Slot), p.Serial, p.PartNumber, p.Lot))
+		}
+	}
+	w.Flush()
+}

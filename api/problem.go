@@ -1,0 +1,110 @@
+package api
+
+import (
+	"errors"
+	"log/slog"
+	"net/http"
+	"strings"
+
+	"github.com/gin-gonic/gin"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// statusOf maps each fleet error code to one HTTP status.
+var statusOf = map[string]int{
+	fleet.EINVALID:       http.StatusBadRequest,
+	fleet.EUNPROCESSABLE: http.StatusUnprocessableEntity,
+	fleet.ENOTFOUND:      http.StatusNotFound,
+	fleet.ECONFLICT:      http.StatusConflict,
+	fleet.EFORBIDDEN:     http.StatusForbidden,
+	fleet.EUNAUTHORIZED:  http.StatusUnauthorized,
+	fleet.EPRECONDITION:  http.StatusPreconditionFailed,
+	fleet.EPRECONDREQ:    http.StatusPreconditionRequired,
+	fleet.ETOOLARGE:      http.StatusRequestEntityTooLarge,
+	fleet.EUNAVAILABLE:   http.StatusServiceUnavailable,
+	fleet.EINTERNAL:      http.StatusInternalServerError,
+}
+
+// Problem is an RFC 9457 problem details object.
+type Problem struct {
+	Type     string         `json:"type"`
+	Title    string         `json:"title"`
+	Status   int            `json:"status"`
+	Detail   string         `json:"detail"`
+	Instance string         `json:"instance"`
+	Code     string         `json:"code"`
+	Field    string         `json:"field,omitempty"`
+	Line     int            `json:"line,omitempty"`
+	Column   string         `json:"column,omitempty"`
+	Errors   []ProblemError `json:"errors,omitempty"`
+}
+
+// ProblemError locates one fault by JSON pointer (RFC 6901).
+type ProblemError struct {
+	Pointer string `json:"pointer"`
+	Detail  string `json:"detail"`
+}
+
+// fail renders err as a problem and aborts the request. Errors that are not
+// domain errors are logged in full and reach the client as "internal error".
+func (s *Server) fail(c *gin.Context, err error) {
+	code := fleet.ErrorCode(err)
+	status := statusOf[code]
+	if status == 0 {
+		status = http.StatusInternalServerError
+	}
+	p := Problem{
+		Type:     "/problems/" + code,
+		Title:    http.StatusText(status),
+		Status:   status,
+		Detail:   fleet.ErrorMessage(err),
+		Instance: c.Request.URL.Path,
+		Code:     code,
+	}
+	var fe *fleet.Error
+	if errors.As(err, &fe) {
+		p.Field, p.Line, p.Column = fe.Field, fe.Line, fe.Column
+		if fe.Field != "" {
+			p.Errors = []ProblemError{{Pointer: pointer(fe.Field), Detail: fe.Message}}
+		}
+	}
+	if status == http.StatusInternalServerError {
+		p.Code, p.Type, p.Detail = fleet.EINTERNAL, "/problems/internal", "internal error"
+		s.log.Error("request failed", "err", err, "method", c.Request.Method, "path", c.Request.URL.Path,
+			"request_id", c.GetString(ctxRequestID))
+	} else {
+		s.log.Debug("request refused", "code", code, "detail", p.Detail, "path", c.Request.URL.Path)
+	}
+	if status == http.StatusUnauthorized {
+		c.Header("WWW-Authenticate", `Bearer realm="rotorwright"`)
+	}
+	c.Header("Content-Type", "application/problem+json")
+	c.AbortWithStatusJSON(status, p)
+}
+
+// pointer turns a field path such as "specs.bearing.count" or "packs[1]"
+// into a JSON pointer.
+func pointer(field string) string {
+	if strings.HasPrefix(field, "line ") {
+		return ""
+	}
+	r := strings.NewReplacer(".", "/", "[", "/", "]", "")
+	return "/" + r.Replace(field)
+}
+
+// recovery turns a panic into a 500 problem without leaking it.
+func (s *Server) recovery() gin.HandlerFunc {
+	return func(c *gin.Context) {
+		defer func() {
+			if r := recover(); r != nil {
+				if r == http.ErrAbortHandler {
+					panic(r)
+				}
+				s.log.Error("panic", "panic", r, "path", c.Request.URL.Path, slog.String("request_id", c.GetString(ctxRequestID)))
+				s.fail(c, errors.New("panic"))
+			}
+		}()
+		c.Next()
+	}
+}

@@ -1,0 +1,215 @@
+// Package api is the REST API: the gin router, handlers, authentication,
+// problem errors and request limits.
+package api
+
+import (
+	"context"
+	"crypto/rand"
+	"encoding/hex"
+	"log/slog"
+	"net/http"
+	"strings"
+
+	"github.com/gin-gonic/gin"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/openapi"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// Limits bound what one request may send.
+type Limits struct {
+	JSONBytes int64 // request bodies other than log uploads
+}
+
+// DefaultLimits are the limits of DESIGN section 8.
+var DefaultLimits = Limits{JSONBytes: 1 << 20}
+
+// Server holds the handlers' dependencies.
+type Server struct {
+	db     *store.DB
+	log    *slog.Logger
+	limits Limits
+	engine *gin.Engine
+}
+
+// Route is one API route and the least role that may call it; Public routes
+// need no token.
+type Route struct {
+	Method  string
+	Path    string // gin syntax: /v1/airframes/:id
+	Role    fleet.Role
+	Public  bool
+	handler func(*Server, *gin.Context)
+}
+
+// Routes is the route table: the router is built from it and the tests walk it.
+var Routes = []Route{
+	{Method: "GET", Path: "/healthz", Public: true, handler: (*Server).healthz},
+	{Method: "GET", Path: "/readyz", Public: true, handler: (*Server).readyz},
+	{Method: "GET", Path: "/openapi.yaml", Public: true, handler: (*Server).openapiDoc},
+
+	{Method: "GET", Path: "/v1/layouts", Role: fleet.RoleViewer, handler: (*Server).listLayouts},
+	{Method: "POST", Path: "/v1/layouts", Role: fleet.RoleTechnician, handler: (*Server).createLayout},
+
+	{Method: "GET", Path: "/v1/airframes", Role: fleet.RoleViewer, handler: (*Server).listAirframes},
+	{Method: "POST", Path: "/v1/airframes", Role: fleet.RoleTechnician, handler: (*Server).createAirframe},
+	{Method: "GET", Path: "/v1/airframes/:id", Role: fleet.RoleViewer, handler: (*Server).getAirframe},
+	{Method: "PATCH", Path: "/v1/airframes/:id", Role: fleet.RoleTechnician, handler: (*Server).patchAirframe},
+	{Method: "DELETE", Path: "/v1/airframes/:id", Role: fleet.RoleAdmin, handler: (*Server).retireAirframe},
+	{Method: "GET", Path: "/v1/airframes/:id/fitment", Role: fleet.RoleViewer, handler: (*Server).getFitment},
+	{Method: "POST", Path: "/v1/airframes/:id/fits", Role: fleet.RoleTechnician, handler: (*Server).createFit},
+	{Method: "POST", Path: "/v1/airframes/:id/removals", Role: fleet.RoleTechnician, handler: (*Server).createRemoval},
+
+	{Method: "GET", Path: "/v1/parts", Role: fleet.RoleViewer, handler: (*Server).listParts},
+	{Method: "POST", Path: "/v1/parts", Role: fleet.RoleTechnician, handler: (*Server).createPart},
+	{Method: "GET", Path: "/v1/parts/:id", Role: fleet.RoleViewer, handler: (*Server).getPart},
+	{Method: "PATCH", Path: "/v1/parts/:id", Role: fleet.RoleTechnician, handler: (*Server).patchPart},
+	{Method: "GET", Path: "/v1/parts/:id/history", Role: fleet.RoleViewer, handler: (*Server).partHistory},
+
+	{Method: "GET", Path: "/v1/jobs", Role: fleet.RoleViewer, handler: (*Server).listJobs},
+	{Method: "POST", Path: "/v1/jobs", Role: fleet.RoleTechnician, handler: (*Server).createJob},
+	{Method: "GET", Path: "/v1/jobs/:id", Role: fleet.RoleViewer, handler: (*Server).getJob},
+	{Method: "PATCH", Path: "/v1/jobs/:id", Role: fleet.RoleTechnician, handler: (*Server).patchJob},
+	{Method: "GET", Path: "/v1/jobs/:id/manifest", Role: fleet.RoleViewer, handler: (*Server).jobManifest},
+
+	{Method: "GET", Path: "/v1/flights", Role: fleet.RoleViewer, handler: (*Server).listFlights},
+	{Method: "POST", Path: "/v1/flights", Role: fleet.RolePilot, handler: (*Server).createFlight},
+	{Method: "GET", Path: "/v1/flights/:id", Role: fleet.RoleViewer, handler: (*Server).getFlight},
+
+	{Method: "GET", Path: "/v1/trace", Role: fleet.RoleViewer, handler: (*Server).trace},
+
+	{Method: "GET", Path: "/v1/events", Role: fleet.RoleViewer, handler: (*Server).listEvents},
+	{Method: "POST", Path: "/v1/events", Role: fleet.RolePilot, handler: (*Server).createEvent},
+	{Method: "GET", Path: "/v1/events/:id", Role: fleet.RoleViewer, handler: (*Server).getEvent},
+	{Method: "PATCH", Path: "/v1/events/:id", Role: fleet.RolePilot, handler: (*Server).patchEvent},
+
+	{Method: "GET", Path: "/v1/keys", Role: fleet.RoleAdmin, handler: (*Server).listKeys},
+	{Method: "POST", Path: "/v1/keys", Role: fleet.RoleAdmin, handler: (*Server).createKey},
+	{Method: "DELETE", Path: "/v1/keys/:id", Role: fleet.RoleAdmin, handler: (*Server).revokeKey},
+
+	{Method: "GET", Path: "/v1/audit", Role: fleet.RoleAdmin, handler: (*Server).listAudit},
+}
+
+// New builds the server and its router.
+func New(db *store.DB, log *slog.Logger, limits Limits) *Server {
+	if limits.JSONBytes == 0 {
+		limits = DefaultLimits
+	}
+	s := &Server{db: db, log: log, limits: limits}
+	gin.SetMode(gin.ReleaseMode)
+	e := gin.New()
+	e.HandleMethodNotAllowed = true
+	e.ContextWithFallback = true
+	e.Use(s.recovery(), s.requestID())
+	for _, r := range Routes {
+		h := r.handler
+		chain := []gin.HandlerFunc{}
+		if !r.Public {
+			chain = append(chain, s.authenticate(r.Role))
+		}
+		chain = append(chain, func(c *gin.Context) { h(s, c) })
+		e.Handle(r.Method, r.Path, chain...)
+	}
+	e.NoRoute(func(c *gin.Context) { s.fail(c, fleet.Errorf(fleet.ENOTFOUND, "no such route")) })
+	e.NoMethod(func(c *gin.Context) {
+		c.Header("Allow", strings.Join(allowed(c.Request.URL.Path), ", "))
+		c.Header("Content-Type", "application/problem+json")
+		c.AbortWithStatusJSON(http.StatusMethodNotAllowed, Problem{Type: "/problems/method_not_allowed",
+			Title: "Method Not Allowed", Status: 405, Detail: "method not allowed on this route",
+			Instance: c.Request.URL.Path, Code: "method_not_allowed"})
+	})
+	s.engine = e
+	return s
+}
+
+// Handler returns the HTTP handler.
+func (s *Server) Handler() http.Handler { return s.engine }
+
+// allowed lists the methods the route table has for a concrete path.
+func allowed(path string) []string {
+	var out []string
+	for _, r := range Routes {
+		if matchPath(r.Path, path) {
+			out = append(out, r.Method)
+		}
+	}
+	return out
+}
+
+func matchPath(pattern, path string) bool {
+	ps, xs := strings.Split(pattern, "/"), strings.Split(path, "/")
+	if len(ps) != len(xs) {
+		return false
+	}
+	for i := range ps {
+		if !strings.HasPrefix(ps[i], ":") && ps[i] != xs[i] {
+			return false
+		}
+	}
+	return true
+}
+
+const (
+	ctxRequestID = "request_id"
+	ctxKey       = "api_key"
+)
+
+func (s *Server) requestID() gin.HandlerFunc {
+	return func(c *gin.Context) {
+		id := c.GetHeader("X-Request-ID")
+		if id == "" || len(id) > 64 {
+			b := make([]byte, 8)
+			_, _ = rand.Read(b)
+			id = hex.EncodeToString(b)
+		}
+		c.Set(ctxRequestID, id)
+		c.Header("X-Request-ID", id)
+		c.Next()
+	}
+}
+
+// authenticate checks the bearer token on every call (so a revoked key stops
+// working at once) and the role the route needs, and sets the audit actor.
+func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
+	return func(c *gin.Context) {
+		h := c.GetHeader("Authorization")
+		token, ok := strings.CutPrefix(h, "Bearer ")
+		if !ok || strings.TrimSpace(token) == "" {
+			s.fail(c, fleet.Errorf(fleet.EUNAUTHORIZED, "send Authorization: Bearer <token>"))
+			return
+		}
+		k, err := s.db.Authenticate(c.Request.Context(), strings.TrimSpace(token))
+		if err != nil {
+			s.fail(c, err)
+			return
+		}
+		if !k.Role.AtLeast(min) {
+			s.fail(c, fleet.Errorf(fleet.EFORBIDDEN, "role %s may not do this; it needs %s", k.Role, min))
+			return
+		}
+		c.Set(ctxKey, k)
+		ctx := store.WithActor(c.Request.Context(), store.Actor{
+			KeyID: k.ID, Name: k.Name, RequestID: c.GetString(ctxRequestID),
+			Method: c.Request.Method, Route: c.FullPath(),
+		})
+		c.Request = c.Request.WithContext(ctx)
+		c.Next()
+	}
+}
+
+func (s *Server) healthz(c *gin.Context) { c.JSON(http.StatusOK, gin.H{"status": "ok"}) }
+
+func (s *Server) readyz(c *gin.Context) {
+	ctx, cancel := context.WithTimeout(c.Request.Context(), 2e9)
+	defer cancel()
+	if err := s.db.Ping(ctx); err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusOK, gin.H{"status": "ready"})
+}
+
+func (s *Server) openapiDoc(c *gin.Context) {
+	c.Data(http.StatusOK, "application/yaml", openapi.Spec)
+}

@@ -1,0 +1,55 @@
+package pglocal
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+)
+
+// ErrNotRunning is returned by Attach when no server runs on the folder.
+var ErrNotRunning = errors.New("pglocal: no server is running there")
+
+// Attach returns the cluster already running in dir (started by another
+// process, such as a running serve), so that a command such as key create
+// can use it. Its Stop does nothing: the starting process owns the server.
+func Attach(dir, database string) (*Cluster, error) {
+	abs, err := filepath.Abs(dir)
+	if err != nil {
+		return nil, fmt.Errorf("pglocal: %w", err)
+	}
+	data, err := os.ReadFile(filepath.Join(abs, "pgdata", "postmaster.pid"))
+	if errors.Is(err, os.ErrNotExist) {
+		return nil, ErrNotRunning
+	} else if err != nil {
+		return nil, fmt.Errorf("pglocal: %w", err)
+	}
+	// postmaster.pid: PID, data directory, start time, port, ... one a line.
+	lines := strings.Split(string(data), "\n")
+	if len(lines) < 4 {
+		return nil, ErrNotRunning
+	}
+	pid, err1 := strconv.Atoi(strings.TrimSpace(lines[0]))
+	port, err2 := strconv.Atoi(strings.TrimSpace(lines[3]))
+	if err1 != nil || err2 != nil || !isServerProcess(pid) {
+		return nil, ErrNotRunning
+	}
+	if database == "" {
+		database = "rotorwright"
+	}
+	return &Cluster{dir: abs, dataDir: filepath.Join(abs, "pgdata"), port: port, database: database,
+		logf: func(string, ...any) {}, stopped: true}, nil
+}
+
+// StartOrAttach attaches to a server already running in opts.Dir, or starts
+// one. attached reports which.
+func StartOrAttach(ctx context.Context, opts Options) (c *Cluster, attached bool, err error) {
+	if c, err := Attach(opts.Dir, opts.Database); err == nil {
+		return c, true, nil
+	}
+	c, err = Start(ctx, opts)
+	return c, false, err
+}

@@ -1,0 +1,223 @@
+package store
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// FitRequest fits a part at a place on an airframe from At on.
+type FitRequest struct {
+	PartID   string
+	Position string
+	At       time.Time
+}
+
+// RemovalRequest ends a part's current fit at At.
+type RemovalRequest struct {
+	PartID string
+	At     time.Time
+	Reason string
+}
+
+// futureSlack is how far ahead of the server clock a fit or removal may be
+// dated (clock skew between a technician's device and the server).
+const futureSlack = 5 * time.Minute
+
+const fitCols = `id, part_id, airframe_id, kind, position, lower(during), upper(during), removal_reason`
+
+func scanFit(row pgx.Row) (*fleet.Fit, error) {
+	var f fleet.Fit
+	err := row.Scan(&f.ID, &f.PartID, &f.AirframeID, &f.Kind, &f.Position, &f.FittedAt, &f.RemovedAt, &f.RemovalReason)
+	return &f, err
+}
+
+// Fit fits a part. The exclusion constraints decide overlaps: a part fitted
+// elsewhere, or a place already taken, over an overlapping time is a conflict.
+func (db *DB) Fit(ctx context.Context, airframeID string, r FitRequest) (*fleet.Fit, error) {
+	if r.At.IsZero() {
+		r.At = db.now()
+	}
+	if r.At.After(db.now().Add(futureSlack)) {
+		return nil, fleet.FieldError("at", "must not be in the future")
+	}
+	var out *fleet.Fit
+	err := db.inTx(ctx, func(tx pgx.Tx) error {
+		a, err := scanAirframe(tx.QueryRow(ctx, `SELECT `+airframeCols+` FROM airframes WHERE id = $1`, airframeID))
+		if err != nil {
+			return translateNotFound(err, "airframe")
+		}
+		if a.RetiredAt != nil {
+			return fleet.Errorf(fleet.ECONFLICT, "airframe %s is retired", a.Code)
+		}
+		p, err := scanPart(tx.QueryRow(ctx, `SELECT `+partCols+` FROM parts WHERE id = $1`, r.PartID))
+		if err != nil {
+			if err == pgx.ErrNoRows {
+				return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id", Message: "unknown part"}
+			}
+			return err
+		}
+		if err := checkFittable(ctx, tx, a, p, &r); err != nil {
+			return err
+		}
+		out, err = scanFit(tx.QueryRow(ctx, `
+			INSERT INTO fits (id, part_id, airframe_id, kind, position, during)
+			VALUES ($1, $2, $3, $4, $5, tstzrange($6, NULL, '[)'))
+			RETURNING `+fitCols, newID(), p.ID, a.ID, p.Kind, r.Position, r.At))
+		if err != nil {
+			return err
+		}
+		if err := syncPartStatus(ctx, tx, p.ID); err != nil {
+			return err
+		}
+		return audit(ctx, tx, "fit", out.ID, nil, out)
+	})
+	return out, err
+}
+
+// checkFittable applies the rules the database cannot: the part's kind and
+// state, the position's existence and rotation.
+func checkFittable(ctx context.Context, tx pgx.Tx, a *fleet.Airframe, p *fleet.Part, r *FitRequest) error {
+	switch p.Status {
+	case fleet.PartRetired, fleet.PartQuarantine:
+		return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id",
+			Message: fmt.Sprintf("part %s is %s and cannot be fitted", p.Serial, p.Status)}
+	}
+	if p.Kind == fleet.KindPack {
+		return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id",
+			Message: "packs are not fitted; list them on each flight"}
+	}
+	if !p.Kind.AtRotor() {
+		if r.Position == "" {
+			r.Position = string(p.Kind)
+		}
+		if !fleet.ValidLabel(r.Position) {
+			return fleet.FieldError("position", "must be 1-32 lower-case letters, digits, '_' or '-'")
+		}
+		return nil
+	}
+	l, err := layoutTx(ctx, tx, a.Layout)
+	if err != nil {
+		return err
+	}
+	pos, ok := l.Position(r.Position)
+	if !ok {
+		return fleet.FieldError("position", "layout %s has no position %q", l.Name, r.Position)
+	}
+	if p.Kind == fleet.KindMotor || p.Kind == fleet.KindPropeller {
+		if rot := p.Rotation(); rot != pos.Rotation {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "position",
+				Message: fmt.Sprintf("%s %s spins %s but position %s turns %s", p.Kind, p.Serial, rot, pos.Label, pos.Rotation)}
+		}
+	}
+	return nil
+}
+
+// Remove ends the part's open fit on the airframe at r.At.
+func (db *DB) Remove(ctx context.Context, airframeID string, r RemovalRequest) (*fleet.Fit, error) {
+	if r.At.IsZero() {
+		r.At = db.now()
+	}
+	if r.At.After(db.now().Add(futureSlack)) {
+		return nil, fleet.FieldError("at", "must not be in the future")
+	}
+	var out *fleet.Fit
+	err := db.inTx(ctx, func(tx pgx.Tx) error {
+		before, err := scanFit(tx.QueryRow(ctx, `
+			SELECT `+fitCols+` FROM fits
+			WHERE airframe_id = $1 AND part_id = $2 AND upper_inf(during) FOR UPDATE`, airframeID, r.PartID))
+		if err == pgx.ErrNoRows {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id", Message: "the part is not fitted on this airframe"}
+		} else if err != nil {
+			return err
+		}
+		if !r.At.After(before.FittedAt) {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "at", Message: "must be after the part was fitted"}
+		}
+		var reason *string
+		if r.Reason != "" {
+			reason = &r.Reason
+		}
+		out, err = scanFit(tx.QueryRow(ctx, `
+			UPDATE fits SET during = tstzrange(lower(during), $2, '[)'), removal_reason = $3
+			WHERE id = $1 RETURNING `+fitCols, before.ID, r.At, reason))
+		if err != nil {
+			return err
+		}
+		if err := syncPartStatus(ctx, tx, r.PartID); err != nil {
+			return err
+		}
+		return audit(ctx, tx, "fit", out.ID, before, out)
+	})
+	return out, err
+}
+
+// Fitment is what an airframe carried at a moment.
+type Fitment struct {
+	AirframeID string             `json:"airframe_id"`
+	At         time.Time          `json:"at"`
+	Parts      []fleet.FittedPart `json:"parts"`
+	Empty      []EmptyPlace       `json:"empty"`
+}
+
+// EmptyPlace is a rotor position lacking a motor or propeller.
+type EmptyPlace struct {
+	Position string         `json:"position"`
+	Kind     fleet.PartKind `json:"kind"`
+}
+
+// Fitment returns the parts fitted on the airframe at the moment at.
+func (db *DB) Fitment(ctx context.Context, airframeID string, at time.Time) (*Fitment, error) {
+	a, err := db.Airframe(ctx, airframeID)
+	if err != nil {
+		return nil, err
+	}
+	l, err := db.Layout(ctx, a.Layout)
+	if err != nil {
+		return nil, err
+	}
+	rows, err := db.pool.Query(ctx, `
+		SELECT f.position, f.kind, p.id, p.serial, p.part_number, p.lot, lower(f.during)
+		FROM fits f JOIN parts p ON p.id = f.part_id
+		WHERE f.airframe_id = $1 AND f.during @> $2::timestamptz
+		ORDER BY f.kind, f.position`, airframeID, at)
+	if err != nil {
+		return nil, translate(err)
+	}
+	parts, err := collect(rows, scanFittedPart)
+	if err != nil {
+		return nil, err
+	}
+	fm := &Fitment{AirframeID: a.ID, At: at.UTC(), Parts: parts, Empty: emptyPlaces(l, parts)}
+	if fm.Parts == nil {
+		fm.Parts = []fleet.FittedPart{}
+	}
+	return fm, nil
+}
+
+func scanFittedPart(r pgx.Row) (fleet.FittedPart, error) {
+	var f fleet.FittedPart
+	err := r.Scan(&f.Position, &f.Kind, &f.PartID, &f.Serial, &f.PartNumber, &f.Lot, &f.FittedAt)
+	return f, err
+}
+
+// emptyPlaces lists the rotor positions without a motor or a propeller.
+func emptyPlaces(l *fleet.Layout, parts []fleet.FittedPart) []EmptyPlace {
+	have := map[string]bool{}
+	for _, p := range parts {
+		have[string(p.Kind)+"/"+p.Position] = true
+	}
+	out := []EmptyPlace{}
+	for _, pos := range l.Positions {
+		for _, k := range []fleet.PartKind{fleet.KindMotor, fleet.KindPropeller} {
+			if !have[string(k)+"/"+pos.Label] {
+				out = append(out, EmptyPlace{Position: pos.Label, Kind: k})
+			}
+		}
+	}
+	return out
+}

@@ -1,0 +1,182 @@
+package store
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+const flightCols = `id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g, site_elevation_m,
+	source, log_sha256, notes, created_at`
+
+func scanFlight(row pgx.Row) (*fleet.Flight, error) {
+	var f fleet.Flight
+	err := row.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
+		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.CreatedAt)
+	if err != nil {
+		return nil, err
+	}
+	f.Packs = []fleet.FlightPack{}
+	return &f, nil
+}
+
+// CreateFlight records a flight and its packs in one transaction. The
+// database refuses overlapping flights of one airframe and a pack in two
+// overlapping flights.
+func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight, error) {
+	if f.Source == "" {
+		f.Source = fleet.SourceManual
+	}
+	if err := f.Validate(); err != nil {
+		return nil, err
+	}
+	if f.LandingAt.After(db.now().Add(futureSlack)) {
+		return nil, fleet.FieldError("landing_at", "must not be in the future")
+	}
+	var out *fleet.Flight
+	err := db.inTx(ctx, func(tx pgx.Tx) error {
+		var err error
+		out, err = insertFlight(ctx, tx, f)
+		return err
+	})
+	return out, err
+}
+
+// insertFlight writes the flight, its packs and the audit row in tx.
+func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Flight, error) {
+	var retired *time.Time
+	err := tx.QueryRow(ctx, `SELECT retired_at FROM airframes WHERE id = $1`, f.AirframeID).Scan(&retired)
+	if err == pgx.ErrNoRows {
+		return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
+	} else if err != nil {
+		return nil, err
+	}
+	if retired != nil {
+		return nil, &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Message: "the airframe is retired"}
+	}
+	out, err := scanFlight(tx.QueryRow(ctx, `
+		INSERT INTO flights (id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g,
+			site_elevation_m, source, log_sha256, notes)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING `+flightCols,
+		newID(), f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
+		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes))
+	if err != nil {
+		return nil, err
+	}
+	for i, fp := range f.Packs {
+		field := fmt.Sprintf("packs[%d]", i)
+		var kind, status, serial, pn, lot string
+		err := tx.QueryRow(ctx, `SELECT kind, status, serial, part_number, lot FROM parts WHERE id = $1`, fp.PartID).
+			Scan(&kind, &status, &serial, &pn, &lot)
+		if err == pgx.ErrNoRows {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: "unknown part"}
+		} else if err != nil {
+			return nil, err
+		}
+		if kind != string(fleet.KindPack) {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: fmt.Sprintf("part %s is a %s, not a pack", serial, kind)}
+		}
+		if status == fleet.PartRetired {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: fmt.Sprintf("pack %s is retired", serial)}
+		}
+		slot := fp.Slot
+		if slot == 0 {
+			slot = i + 1
+		}
+		if _, err := tx.Exec(ctx, `
+			INSERT INTO flight_packs (flight_id, part_id, slot, airborne)
+			VALUES ($1, $2, $3, tstzrange($4, $5, '[)'))`, out.ID, fp.PartID, slot, out.TakeoffAt, out.LandingAt); err != nil {
+			return nil, err
+		}
+		out.Packs = append(out.Packs, fleet.FlightPack{PartID: fp.PartID, Serial: serial, PartNumber: pn, Lot: lot, Slot: slot})
+	}
+	return out, audit(ctx, tx, "flight", out.ID, nil, out)
+}
+
+// Flight returns one flight with its packs.
+func (db *DB) Flight(ctx context.Context, id string) (*fleet.Flight, error) {
+	f, err := scanFlight(db.pool.QueryRow(ctx, `SELECT `+flightCols+` FROM flights WHERE id = $1`, id))
+	if err != nil {
+		return nil, translateNotFound(err, "flight")
+	}
+	packs, err := db.flightPacks(ctx, []string{id})
+	if err != nil {
+		return nil, err
+	}
+	f.Packs = append(f.Packs, packs[id]...)
+	return f, nil
+}
+
+// flightPacks returns the packs of each flight.
+func (db *DB) flightPacks(ctx context.Context, ids []string) (map[string][]fleet.FlightPack, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT fp.flight_id, fp.part_id, p.serial, p.part_number, p.lot, fp.slot
+		FROM flight_packs fp JOIN parts p ON p.id = fp.part_id
+		WHERE fp.flight_id = ANY($1::uuid[]) ORDER BY fp.flight_id, fp.slot`, ids)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	out := map[string][]fleet.FlightPack{}
+	for rows.Next() {
+		var fid string
+		var fp fleet.FlightPack
+		if err := rows.Scan(&fid, &fp.PartID, &fp.Serial, &fp.PartNumber, &fp.Lot, &fp.Slot); err != nil {
+			return nil, translate(err)
+		}
+		out[fid] = append(out[fid], fp)
+	}
+	return out, translate(rows.Err())
+}
+
+// FlightFilter narrows a listing.
+type FlightFilter struct {
+	AirframeID string
+	JobID      string
+	From, To   *time.Time
+}
+
+// Flights lists flights in id order (ids are time-ordered), one keyset page.
+func (db *DB) Flights(ctx context.Context, f FlightFilter, p Page) ([]*fleet.Flight, string, error) {
+	after, err := p.afterID()
+	if err != nil {
+		return nil, "", err
+	}
+	rows, err := db.pool.Query(ctx, `
+		SELECT `+flightCols+` FROM flights
+		WHERE ($1::uuid IS NULL OR id > $1)
+		  AND ($2::uuid IS NULL OR airframe_id = $2) AND ($3::uuid IS NULL OR job_id = $3)
+		  AND ($4::timestamptz IS NULL OR takeoff_at >= $4) AND ($5::timestamptz IS NULL OR takeoff_at < $5)
+		ORDER BY id LIMIT $6`, after, nilIfEmpty(f.AirframeID), nilIfEmpty(f.JobID), f.From, f.To, p.Limit+1)
+	if err != nil {
+		return nil, "", translate(err)
+	}
+	list, err := collect(rows, scanFlight)
+	if err != nil {
+		return nil, "", err
+	}
+	list, next, _ := page(list, p.Limit, func(f *fleet.Flight) string { return f.ID })
+	ids := make([]string, len(list))
+	for i, f := range list {
+		ids[i] = f.ID
+	}
+	packs, err := db.flightPacks(ctx, ids)
+	if err != nil {
+		return nil, "", err
+	}
+	for _, f := range list {
+		f.Packs = append(f.Packs, packs[f.ID]...)
+	}
+	return list, next, nil
+}
+
+func nilIfEmpty(s string) *string {
+	if s == "" {
+		return nil
+	}
+	return &s
+}

@@ -1,0 +1,282 @@
+// Package store holds all SQL. Every write runs in one transaction together
+// with its audit-log row; PostgreSQL errors become fleet errors here.
+package store
+
+import (
+	"context"
+	"encoding/base64"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgxpool"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/migrations"
+)
+
+// DB is the store over a connection pool.
+type DB struct {
+	pool *pgxpool.Pool
+	now  func() time.Time
+}
+
+// Open connects to the database at url. It does not migrate.
+func Open(ctx context.Context, url string) (*DB, error) {
+	cfg, err := pgxpool.ParseConfig(url)
+	if err != nil {
+		return nil, fmt.Errorf("database url: %w", err)
+	}
+	pool, err := pgxpool.NewWithConfig(ctx, cfg)
+	if err != nil {
+		return nil, fmt.Errorf("connect: %w", err)
+	}
+	return New(pool), nil
+}
+
+// New wraps an existing pool.
+func New(pool *pgxpool.Pool) *DB { return &DB{pool: pool, now: time.Now} }
+
+// Pool returns the underlying pool.
+func (db *DB) Pool() *pgxpool.Pool { return db.pool }
+
+// Close closes the pool.
+func (db *DB) Close() { db.pool.Close() }
+
+// Ping checks the database answers.
+func (db *DB) Ping(ctx context.Context) error {
+	if err := db.pool.Ping(ctx); err != nil {
+		return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
+	}
+	return nil
+}
+
+// Migrate applies pending migrations on a dedicated connection and refuses a
+// schema newer than this binary knows.
+func (db *DB) Migrate(ctx context.Context, logf func(string, ...any)) error {
+	conn, err := db.pool.Acquire(ctx)
+	if err != nil {
+		return fmt.Errorf("acquire: %w", err)
+	}
+	defer conn.Release()
+	cur, err := migrations.Current(ctx, conn.Conn())
+	if err != nil {
+		return fmt.Errorf("schema version: %w", err)
+	}
+	latest, err := migrations.Latest()
+	if err != nil {
+		return err
+	}
+	if cur > latest {
+		return fmt.Errorf("database schema version %d is newer than this binary knows (%d): upgrade rotorwright", cur, latest)
+	}
+	return migrations.Migrate(ctx, conn.Conn(), logf)
+}
+
+// Actor is who makes a change, recorded in the audit log.
+type Actor struct {
+	KeyID     string // api key id; empty for the command line
+	Name      string
+	RequestID string
+	Method    string
+	Route     string
+}
+
+type actorKey struct{}
+
+// WithActor attaches the actor of the current request to ctx.
+func WithActor(ctx context.Context, a Actor) context.Context {
+	return context.WithValue(ctx, actorKey{}, a)
+}
+
+func actorFrom(ctx context.Context) Actor {
+	a, _ := ctx.Value(actorKey{}).(Actor)
+	return a
+}
+
+func newID() string { return uuid.Must(uuid.NewV7()).String() }
+
+// inTx runs fn in a transaction, retrying on serialization failure or
+// deadlock, and translates database errors.
+func (db *DB) inTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
+	var err error
+	for attempt := 0; attempt < 3; attempt++ {
+		err = db.tryTx(ctx, fn)
+		var pe *pgconn.PgError
+		if errors.As(err, &pe) && (pe.Code == "40001" || pe.Code == "40P01") {
+			continue
+		}
+		break
+	}
+	return translate(err)
+}
+
+func (db *DB) tryTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
+	tx, err := db.pool.Begin(ctx)
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback(ctx)
+	if err := fn(tx); err != nil {
+		return err
+	}
+	return tx.Commit(ctx)
+}
+
+// audit writes one audit-log row in tx. before and after are marshalled to
+// JSON (nil stays SQL NULL).
+func audit(ctx context.Context, tx pgx.Tx, entity, entityID string, before, after any) error {
+	a := actorFrom(ctx)
+	var actor *string
+	if a.KeyID != "" {
+		actor = &a.KeyID
+	}
+	b, err := jsonOrNil(before)
+	if err != nil {
+		return err
+	}
+	af, err := jsonOrNil(after)
+	if err != nil {
+		return err
+	}
+	_, err = tx.Exec(ctx, `
+		INSERT INTO audit_log (actor, actor_name, request_id, method, route, entity, entity_id, before, after)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
+		actor, a.Name, a.RequestID, a.Method, a.Route, entity, entityID, b, af)
+	return err
+}
+
+func jsonOrNil(v any) ([]byte, error) {
+	if v == nil {
+		return nil, nil
+	}
+	return json.Marshal(v)
+}
+
+// constraintErrors maps constraint names to the field and message a client
+// sees. Anything unlisted becomes a generic conflict.
+var constraintErrors = map[string]struct{ field, msg string }{
+	"airframes_code_key":            {"code", "an airframe with this code exists"},
+	"parts_kind_serial_key":         {"serial", "a part of this kind with this serial exists"},
+	"jobs_code_key":                 {"code", "a job with this code exists"},
+	"fits_part_overlap":             {"part_id", "the part is fitted elsewhere over an overlapping time"},
+	"fits_position_overlap":         {"position", "the position holds another part of this kind over an overlapping time"},
+	"flights_airframe_overlap":      {"takeoff_at", "the airframe has another flight over an overlapping time"},
+	"flights_log_key":               {"log", "this log was already uploaded for this airframe"},
+	"flight_packs_overlap":          {"packs", "a pack flies another flight over an overlapping time"},
+	"flight_packs_part_once":        {"packs", "a pack is listed twice"},
+	"flights_landing_after_takeoff": {"landing_at", "must be after takeoff_at"},
+	"api_keys_token_key":            {"token", "token collision"},
+	"airframes_layout_fkey":         {"layout", "unknown layout"},
+	"flights_job_id_fkey":           {"job_id", "unknown job"},
+	"events_airframe_id_fkey":       {"airframe_id", "unknown airframe"},
+	"events_part_id_fkey":           {"part_id", "unknown part"},
+	"events_flight_id_fkey":         {"flight_id", "unknown flight"},
+	"layouts_pkey":                  {"name", "a layout with this name exists"},
+	"flight_packs_part_id_fkey":     {"packs", "unknown pack"},
+	"flights_airframe_id_fkey":      {"airframe_id", "unknown airframe"},
+}
+
+// translate maps PostgreSQL errors to fleet errors, trusting constraints
+// rather than checking first.
+func translate(err error) error {
+	if err == nil {
+		return nil
+	}
+	var fe *fleet.Error
+	if errors.As(err, &fe) {
+		return fe
+	}
+	if errors.Is(err, pgx.ErrNoRows) {
+		return fleet.Errorf(fleet.ENOTFOUND, "not found")
+	}
+	var pe *pgconn.PgError
+	if errors.As(err, &pe) {
+		m, known := constraintErrors[pe.ConstraintName]
+		switch pe.Code {
+		case "23505", "23P01": // unique_violation, exclusion_violation
+			if !known {
+				m.msg = "conflicts with an existing record"
+			}
+			return &fleet.Error{Code: fleet.ECONFLICT, Field: m.field, Message: m.msg}
+		case "23503": // foreign_key_violation
+			if !known {
+				m.msg = "refers to a record that does not exist"
+			}
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: m.field, Message: m.msg}
+		case "23514": // check_violation
+			if !known {
+				m.msg = "breaks a rule of the register"
+			}
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: m.field, Message: m.msg}
+		case "22P02", "22007", "22008": // bad text representation, datetime
+			return &fleet.Error{Code: fleet.EINVALID, Message: "malformed value"}
+		}
+		if pe.Code[:2] == "08" || pe.Code == "57P01" || pe.Code == "57P03" {
+			return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
+		}
+		return err
+	}
+	var ce *pgconn.ConnectError
+	if errors.As(err, &ce) || pgconn.SafeToRetry(err) || errors.Is(err, context.DeadlineExceeded) {
+		return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
+	}
+	return err
+}
+
+// Page is a keyset page request: items after Cursor, at most Limit.
+type Page struct {
+	Limit  int
+	Cursor string // opaque; the last id of the previous page
+}
+
+// MaxPageSize bounds a page.
+const MaxPageSize = 500
+
+// afterID decodes a cursor into the id to page after ("" for the first page).
+func (p Page) afterID() (*string, error) {
+	if p.Cursor == "" {
+		return nil, nil
+	}
+	b, err := base64.RawURLEncoding.DecodeString(p.Cursor)
+	if err != nil {
+		return nil, fleet.FieldError("cursor", "is not a cursor this service issued")
+	}
+	id, err := uuid.ParseBytes(b)
+	if err != nil {
+		return nil, fleet.FieldError("cursor", "is not a cursor this service issued")
+	}
+	s := id.String()
+	return &s, nil
+}
+
+// nextCursor returns the cursor after the last of n fetched ids when a
+// further page exists (the query fetched limit+1 rows).
+func nextCursor(ids []string, limit int) string {
+	if len(ids) <= limit {
+		return ""
+	}
+	return base64.RawURLEncoding.EncodeToString([]byte(ids[limit-1]))
+}
+
+// ParseID checks s is a UUID and names field when it is not.
+func ParseID(field, s string) (string, error) {
+	id, err := uuid.Parse(s)
+	if err != nil {
+		return "", fleet.FieldError(field, "must be a UUID")
+	}
+	return id.String(), nil
+}
+
+func notFound(what string) error {
+	return fleet.Errorf(fleet.ENOTFOUND, "%s not found", what)
+}
+
+// versionMismatch is returned when an If-Match version is stale.
+func versionMismatch() error {
+	return fleet.Errorf(fleet.EPRECONDITION, "the record changed since it was read; fetch it again")
+}

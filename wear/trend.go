@@ -1,0 +1,94 @@
+package wear
+
+import (
+	"math"
+	"sort"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// TheilSen returns the Theil-Sen robust line through (x, y): the slope is
+// the median of the pairwise slopes (y_j - y_i)/(x_j - x_i) over pairs with
+// distinct x (Sen 1968), and the intercept the median of y_i - slope x_i.
+// Up to about 29 % of the points may be wild without moving it far.
+func TheilSen(x, y []float64) (slope, intercept float64, err error) {
+	if len(x) != len(y) {
+		return 0, 0, fleet.Errorf(fleet.EINVALID, "x and y differ in length (%d, %d)", len(x), len(y))
+	}
+	slopes := make([]float64, 0, len(x)*(len(x)-1)/2)
+	for i := range x {
+		if !finite(x[i]) || !finite(y[i]) {
+			return 0, 0, fleet.Errorf(fleet.EINVALID, "point %d is not finite", i)
+		}
+		for j := i + 1; j < len(x); j++ {
+			if x[j] != x[i] {
+				slopes = append(slopes, (y[j]-y[i])/(x[j]-x[i]))
+			}
+		}
+	}
+	if len(slopes) == 0 {
+		return 0, 0, fleet.Errorf(fleet.EUNPROCESSABLE, "a trend needs at least two distinct x values")
+	}
+	slope = median(slopes)
+	res := make([]float64, len(x))
+	for i := range x {
+		res[i] = y[i] - slope*x[i]
+	}
+	return slope, median(res), nil
+}
+
+// median returns the median of v (the mean of the middle pair for even
+// length); it reorders v.
+func median(v []float64) float64 {
+	sort.Float64s(v)
+	n := len(v)
+	if n%2 == 1 {
+		return v[n/2]
+	}
+	return (v[n/2-1] + v[n/2]) / 2
+}
+
+// TrendResult is a robust trend over the last flights of an airframe.
+type TrendResult struct {
+	N              int     // flights in the window
+	Slope          float64 // per flight
+	Intercept      float64 // at the window's first flight
+	BaselineMedian float64 // median of the window's first half (ceil(N/2) flights)
+	// RisePct is the relative rise over the window,
+	// 100 * Slope * (N - 1) / BaselineMedian.
+	RisePct float64
+	Flag    bool // RisePct > the limit
+}
+
+// Trend fits a Theil-Sen line to the last lastN values (oldest first; 0
+// means all), x being the flight's place in the window (0, 1, ...), and
+// flags a rise over the window beyond limitPct. Used for the hover
+// efficiency index and vibration RMS, both positive quantities.
+func Trend(values []float64, lastN int, limitPct float64) (TrendResult, error) {
+	if lastN < 0 {
+		return TrendResult{}, fleet.FieldError("last_n", "window must be non-negative")
+	}
+	if lastN > 0 && len(values) > lastN {
+		values = values[len(values)-lastN:]
+	}
+	n := len(values)
+	if n < 3 {
+		return TrendResult{}, fleet.Errorf(fleet.EUNPROCESSABLE, "a trend needs at least 3 flights, got %d", n)
+	}
+	x := make([]float64, n)
+	for i := range x {
+		x[i] = float64(i)
+	}
+	slope, icpt, err := TheilSen(x, values)
+	if err != nil {
+		return TrendResult{}, err
+	}
+	base := median(append([]float64(nil), values[:(n+1)/2]...))
+	if !(base > 0) {
+		return TrendResult{}, fleet.Errorf(fleet.EUNPROCESSABLE, "baseline median %g is not positive", base)
+	}
+	r := TrendResult{N: n, Slope: slope, Intercept: icpt, BaselineMedian: base}
+	r.RisePct = 100 * slope * float64(n-1) / base
+	r.Flag = r.RisePct > limitPct && !math.IsNaN(r.RisePct)
+	return r, nil
+}
