@@ -90,7 +90,7 @@ func TestWalkthrough(t *testing.T) {
 	}
 	// The fitment now has every motor and is missing every propeller.
 	var fm struct {
-		Parts []any `json:"parts"`
+		Parts []any                   `json:"parts"`
 		Empty []struct{ Kind string } `json:"empty"`
 	}
 	e.call("GET", "/v1/airframes/"+a.ID+"/fitment", fleet.RoleViewer, nil).decode(t, &fm)
