@@ -1,0 +1,419 @@
+package telemetry
+
+import (
+	"errors"
+	"math"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// Defaults taken by Params fields left at zero. Each is this package's choice
+// (configurable), not a published figure, unless its comment says otherwise.
+const (
+	DefaultHardLandingG      = 2.5   // landing peak |acc| in g that opens hard_landing (no published figure for small multirotors)
+	DefaultIdleRPMFraction   = 0.2   // idle rpm threshold as a fraction of the log's peak mean rotor rpm
+	DefaultIdleThrottle      = 0.1   // throttle command at or below which the rotors count as idle
+	DefaultRPMBinWidth       = 1000  // rev/min per load-spectrum bin
+	DefaultRestCurrentA      = 1.0   // current at or below which the pack counts as at rest
+	DefaultEventSustainS     = 0.5   // how long a limit must be exceeded before an event opens
+	DefaultIRWindowS         = 0.2   // time between the two samples of a resistance step estimate
+	DefaultVibrationCutoffHz = 2.0   // high-pass corner separating vibration from manoeuvres and gravity
+	DefaultLandingWindowS    = 5.0   // seconds before the end of the airborne span searched for touchdown
+	minIRSteps               = 5     // fewer step estimates than this give no resistance figure
+	irMinStepFraction        = 0.1   // current step that counts, as a fraction of the log's current range
+	irMinStepA               = 0.5   // and never smaller than this
+	landingAfterS            = 2.0   // seconds after the airborne span also searched for touchdown
+	severeFactor             = 1.2   // an event exceeding its limit by this factor is critical
+	maxBins                  = 10000 // load spectra with more bins than this are refused as nonsense
+)
+
+// Span is a time interval in log seconds (t_s).
+type Span struct {
+	FromS, ToS float64
+}
+
+// Params are the facts about the flight that the log does not carry. Zero
+// values mean unknown (figures that need them come out null) or, where a
+// default is named, take the default.
+type Params struct {
+	MassKg         float64         // take-off mass
+	RotorDiameterM float64         // propeller diameter
+	Rotors         int             // motor positions; 0 = number of rpm columns
+	CellsS         int             // cells in series; 0 = number of cell columns
+	Chemistry      fleet.Chemistry // for the overdischarge floor
+	RatedMah       float64         // rated capacity of the pack(s) feeding pack_a, combined
+	CRating        float64         // continuous discharge rating, in C
+	SiteElevationM float64         // take-off site elevation, for ISA density when baro/temp are absent
+	Airborne       *Span           // take-off to landing when known; else the motor run span
+
+	HardLandingG      float64 // default DefaultHardLandingG
+	IdleRPM           float64 // default DefaultIdleRPMFraction x peak mean rotor rpm
+	IdleThrottle      float64 // default DefaultIdleThrottle
+	RPMBinWidth       float64 // default DefaultRPMBinWidth
+	RestCurrentA      float64 // default DefaultRestCurrentA
+	EventSustainS     float64 // default DefaultEventSustainS
+	IRWindowS         float64 // default DefaultIRWindowS
+	VibrationCutoffHz float64 // default DefaultVibrationCutoffHz
+	LandingWindowS    float64 // default DefaultLandingWindowS
+}
+
+// validate refuses parameters that are negative or not finite (EINVALID).
+func (p Params) validate() error {
+	fields := []struct {
+		name string
+		v    float64
+	}{
+		{"mass_kg", p.MassKg}, {"rotor_diameter_m", p.RotorDiameterM}, {"rotors", float64(p.Rotors)},
+		{"cells_s", float64(p.CellsS)}, {"rated_mah", p.RatedMah}, {"c_rating", p.CRating},
+		{"hard_landing_g", p.HardLandingG}, {"idle_rpm", p.IdleRPM}, {"idle_throttle", p.IdleThrottle},
+		{"rpm_bin_width", p.RPMBinWidth}, {"rest_current_a", p.RestCurrentA}, {"event_sustain_s", p.EventSustainS},
+		{"ir_window_s", p.IRWindowS}, {"vibration_cutoff_hz", p.VibrationCutoffHz}, {"landing_window_s", p.LandingWindowS},
+	}
+	for _, f := range fields {
+		if !(f.v >= 0) || math.IsInf(f.v, 0) {
+			return fleet.FieldError(f.name, "%s must be a finite number, zero or more", f.name)
+		}
+	}
+	// The standard atmosphere formulas hold from the Dead Sea to the tropopause.
+	if !(p.SiteElevationM >= -500 && p.SiteElevationM <= 11000) {
+		return fleet.FieldError("site_elevation_m", "site elevation must be between -500 and 11000 m")
+	}
+	if s := p.Airborne; s != nil && !(s.ToS >= s.FromS) {
+		return fleet.FieldError("airborne", "airborne span must end at or after it starts")
+	}
+	return nil
+}
+
+func (p Params) withDefaults() Params {
+	def := func(v *float64, d float64) {
+		if !(*v > 0) {
+			*v = d
+		}
+	}
+	def(&p.HardLandingG, DefaultHardLandingG)
+	def(&p.IdleThrottle, DefaultIdleThrottle)
+	def(&p.RPMBinWidth, DefaultRPMBinWidth)
+	def(&p.RestCurrentA, DefaultRestCurrentA)
+	def(&p.EventSustainS, DefaultEventSustainS)
+	def(&p.IRWindowS, DefaultIRWindowS)
+	def(&p.VibrationCutoffHz, DefaultVibrationCutoffHz)
+	def(&p.LandingWindowS, DefaultLandingWindowS)
+	return p
+}
+
+// Metrics are the per-flight figures. Pointer fields are null when the log
+// lacks the columns (or Params lack the facts) they need; Notes say why.
+type Metrics struct {
+	Samples int     `json:"samples"`
+	LogS    float64 `json:"log_s"` // last minus first t_s
+	// RunS is the time with the rotors (mean rpm, else throttle) above idle.
+	RunS *float64 `json:"run_s"`
+	// The airborne span is Params.Airborne, else first to last sample above
+	// idle (a log holding two flights gives one span across both).
+	AirborneFromS *float64 `json:"airborne_from_s"`
+	AirborneToS   *float64 `json:"airborne_to_s"`
+
+	ChargeMah  float64 `json:"charge_mah"`
+	EnergyWh   float64 `json:"energy_wh"`
+	MeanPowerW float64 `json:"mean_power_w"` // over the whole log
+	PeakPowerW float64 `json:"peak_power_w"`
+	PeakA      float64 `json:"peak_a"`
+	MinPackV   float64 `json:"min_pack_v"`
+	// MinCellV is from cell columns, else pack_v / cells_s (MinCellSource says which).
+	MinCellV      *float64 `json:"min_cell_v"`
+	MinCellSource string   `json:"min_cell_source,omitempty"`
+	// RestVStart is the median pack voltage at or below RestCurrentA before the
+	// first load; RestVEnd the median over the later half of the final rest.
+	RestVStart *float64 `json:"rest_v_start"`
+	RestVEnd   *float64 `json:"rest_v_end"`
+	// IRMohm is the pack DC resistance, the median of step estimates -dV/dI.
+	IRMohm      *float64   `json:"ir_mohm"`
+	IRCellMohm  *float64   `json:"ir_cell_mohm"`  // IRMohm / cells_s
+	IRCellsMohm []*float64 `json:"ir_cells_mohm"` // per cell column
+	IRSteps     int        `json:"ir_steps"`
+
+	HoverRPM *float64 `json:"hover_rpm"` // mean rotor rpm over the airborne span
+	// ThrustK is k in T = k rpm^2 (N per (rev/min)^2), from mean thrust = weight aloft.
+	ThrustK        *float64 `json:"thrust_k"`
+	AirbornePowerW *float64 `json:"airborne_power_w"`
+	IdealPowerW    *float64 `json:"ideal_power_w"` // all rotors, momentum theory, T = m g / N each
+	// EfficiencyIndex = AirbornePowerW / IdealPowerW: at least 1, rising means lost efficiency.
+	EfficiencyIndex  *float64 `json:"efficiency_index"`
+	AirDensity       float64  `json:"air_density"`
+	AirDensitySource string   `json:"air_density_source"` // "baro_temp" or "isa_site_elevation"
+
+	MaxAltM   *float64   `json:"max_alt_m"`
+	Vibration *Vibration `json:"vibration_rms"`
+	LandingG  *float64   `json:"landing_g"`
+	LandingAt *float64   `json:"landing_at_s"`
+	DistanceM *float64   `json:"distance_m"`
+	MaxRangeM *float64   `json:"max_range_m"`
+
+	Motors []MotorRun `json:"motors"`
+	Events []Event    `json:"events"`
+	Notes  []string   `json:"notes"`
+}
+
+// Vibration is the RMS of high-passed body acceleration (m/s^2) over the
+// airborne span, per axis present, with the dominant vibration frequency.
+type Vibration struct {
+	X      *float64 `json:"x"`
+	Y      *float64 `json:"y"`
+	Z      *float64 `json:"z"`
+	PeakHz *float64 `json:"peak_hz"` // strongest spectral line of the z axis above the cut-off
+	// RotorHz is hover_rpm / 60, to compare with PeakHz (alias it first if
+	// the log's Nyquist frequency is below it).
+	RotorHz *float64 `json:"rotor_hz"`
+}
+
+// Event is a condition detected in the log that ingest records.
+type Event struct {
+	Kind     string  `json:"kind"` // hard_landing, overdischarge, overcurrent
+	AtS      float64 `json:"at_s"`
+	Severity string  `json:"severity"` // warning, or critical beyond 1.2 x the limit
+	Value    float64 `json:"value"`
+	Limit    float64 `json:"limit"`
+	Detail   string  `json:"detail"`
+}
+
+// analysis carries what several figures share.
+type analysis struct {
+	l       *Log
+	p       Params
+	m       *Metrics
+	lo, hi  int // airborne span sample indices, lo = -1 if unknown
+	meanRPM []float64
+	idleRPM float64
+}
+
+// Analyze computes the figures of one flight from a parsed log. It is pure.
+func Analyze(l *Log, p Params) (*Metrics, error) {
+	if l == nil || l.Rows == 0 || len(l.T) != l.Rows {
+		return nil, errors.New("telemetry: Analyze needs a parsed log with samples")
+	}
+	if err := p.validate(); err != nil {
+		return nil, err
+	}
+	a := &analysis{l: l, p: p.withDefaults(), m: &Metrics{Samples: l.Rows}, lo: -1}
+	m := a.m
+	m.LogS = l.T[l.Rows-1] - l.T[0]
+	a.activity()
+	a.electrical()
+	a.resistance()
+	a.air()
+	a.rotors()
+	a.efficiency()
+	a.altitude()
+	a.vibration()
+	a.landing()
+	a.distance()
+	a.events()
+	if err := a.finite(); err != nil {
+		return nil, err
+	}
+	if m.Motors == nil {
+		m.Motors = []MotorRun{}
+	}
+	if m.Events == nil {
+		m.Events = []Event{}
+	}
+	if m.Notes == nil {
+		m.Notes = []string{}
+	}
+	return m, nil
+}
+
+func (a *analysis) note(s string) { a.m.Notes = append(a.m.Notes, s) }
+
+// activity finds the run time and the airborne span from rpm, else throttle.
+func (a *analysis) activity() {
+	l, m := a.l, a.m
+	var level []float64
+	var idle float64
+	switch {
+	case len(l.RPM) > 0:
+		a.meanRPM = make([]float64, l.Rows)
+		for _, r := range l.RPM {
+			for i, v := range r.RPM {
+				a.meanRPM[i] += v
+			}
+		}
+		peak := 0.0
+		for i := range a.meanRPM {
+			a.meanRPM[i] /= float64(len(l.RPM))
+			peak = max(peak, a.meanRPM[i])
+		}
+		a.idleRPM = a.p.IdleRPM
+		if !(a.idleRPM > 0) {
+			a.idleRPM = DefaultIdleRPMFraction * peak
+		}
+		level, idle = a.meanRPM, a.idleRPM
+	case l.Throttle != nil:
+		level, idle = l.Throttle, a.p.IdleThrottle
+	default:
+		a.note("no rpm or throttle column: run time, airborne span and rotor figures are not computed")
+	}
+	if level != nil {
+		on := make([]float64, l.Rows)
+		first, last := -1, -1
+		for i, v := range level {
+			if v > idle {
+				on[i] = 1
+				if first < 0 {
+					first = i
+				}
+				last = i
+			}
+		}
+		m.RunS = ptr(Trapezoid(l.T, on))
+		if first >= 0 && a.p.Airborne == nil {
+			a.lo, a.hi = first, last
+		}
+	}
+	if s := a.p.Airborne; s != nil {
+		a.lo, a.hi = -1, -1
+		for i, t := range l.T {
+			if t >= s.FromS && t <= s.ToS {
+				if a.lo < 0 {
+					a.lo = i
+				}
+				a.hi = i
+			}
+		}
+	}
+	if a.lo >= 0 {
+		m.AirborneFromS, m.AirborneToS = ptr(l.T[a.lo]), ptr(l.T[a.hi])
+	} else if level != nil || a.p.Airborne != nil {
+		a.note("no sample above idle (or inside the given airborne span): airborne figures are not computed")
+	}
+}
+
+// air picks the air density: measured when baro and temperature exist, else ISA.
+func (a *analysis) air() {
+	l, m := a.l, a.m
+	if l.Baro != nil && l.Temp != nil {
+		rho := make([]float64, l.Rows)
+		for i := range rho {
+			rho[i] = AirDensity(l.Baro[i], l.Temp[i])
+		}
+		lo, hi := 0, l.Rows-1
+		if a.lo >= 0 {
+			lo, hi = a.lo, a.hi
+		}
+		m.AirDensity, m.AirDensitySource = meanOver(l.T, rho, lo, hi), "baro_temp"
+		return
+	}
+	m.AirDensity, m.AirDensitySource = ISADensity(a.p.SiteElevationM), "isa_site_elevation"
+}
+
+// efficiency compares airborne electrical power with momentum-theory ideal power.
+func (a *analysis) efficiency() {
+	l, m, p := a.l, a.m, a.p
+	if a.lo < 0 {
+		return
+	}
+	pw := make([]float64, l.Rows)
+	for i := range pw {
+		pw[i] = l.PackV[i] * l.PackA[i]
+	}
+	m.AirbornePowerW = ptr(meanOver(l.T, pw, a.lo, a.hi))
+	n := p.Rotors
+	if n == 0 {
+		n = len(l.RPM)
+	}
+	switch {
+	case !(p.MassKg > 0):
+		a.note("take-off mass unknown: efficiency index is not computed")
+	case !(p.RotorDiameterM > 0):
+		a.note("rotor diameter unknown: efficiency index is not computed")
+	case n <= 0:
+		a.note("number of rotors unknown: efficiency index is not computed")
+	default:
+		ideal := float64(n) * IdealHoverPower(p.MassKg*G0/float64(n), m.AirDensity, p.RotorDiameterM)
+		m.IdealPowerW = ptr(ideal)
+		m.EfficiencyIndex = ptr(*m.AirbornePowerW / ideal)
+	}
+}
+
+// altitude is the greatest pressure altitude above the take-off reference: the
+// median before the airborne span, else over the first second of the log.
+func (a *analysis) altitude() {
+	l := a.l
+	if l.Baro == nil {
+		return
+	}
+	var ref []float64
+	for i, pa := range l.Baro {
+		if (a.lo > 0 && i < a.lo) || (a.lo <= 0 && l.T[i]-l.T[0] <= 1) {
+			ref = append(ref, PressureAltitude(pa))
+		}
+	}
+	top := math.Inf(-1)
+	for _, pa := range l.Baro {
+		top = max(top, PressureAltitude(pa))
+	}
+	a.m.MaxAltM = ptr(top - median(ref))
+}
+
+func (a *analysis) distance() {
+	l := a.l
+	if l.Lat == nil {
+		return
+	}
+	d, r, err := track(l.Lat, l.Lon)
+	if err != nil {
+		a.note("track has a segment the geodesic solver cannot measure: distance is not computed")
+		return
+	}
+	a.m.DistanceM, a.m.MaxRangeM = ptr(d), ptr(r)
+}
+
+// finite nulls any optional figure that came out NaN or infinite (a division
+// by a vanishing mean on a degenerate log) rather than report it; a required
+// figure that is not finite is an error, since bounded inputs cannot cause it.
+func (a *analysis) finite() error {
+	m := a.m
+	opt := []**float64{&m.RunS, &m.AirborneFromS, &m.AirborneToS, &m.MinCellV, &m.RestVStart, &m.RestVEnd,
+		&m.IRMohm, &m.IRCellMohm, &m.HoverRPM, &m.ThrustK, &m.AirbornePowerW, &m.IdealPowerW,
+		&m.EfficiencyIndex, &m.MaxAltM, &m.LandingG, &m.LandingAt, &m.DistanceM, &m.MaxRangeM}
+	for i := range m.IRCellsMohm {
+		opt = append(opt, &m.IRCellsMohm[i])
+	}
+	if v := m.Vibration; v != nil {
+		opt = append(opt, &v.X, &v.Y, &v.Z, &v.PeakHz, &v.RotorHz)
+	}
+	for i := range m.Motors {
+		mr := &m.Motors[i]
+		opt = append(opt, &mr.MeanRPM, &mr.ThrustMeanN)
+		for j := range mr.Bins {
+			opt = append(opt, &mr.Bins[j].MeanThrustN)
+		}
+	}
+	dropped := false
+	for _, p := range opt {
+		if *p != nil && !isFinite(**p) {
+			*p, dropped = nil, true
+		}
+	}
+	if dropped {
+		a.note("some figures came out non-finite on this degenerate log and are left null")
+	}
+	req := []float64{m.LogS, m.ChargeMah, m.EnergyWh, m.MeanPowerW, m.PeakPowerW, m.PeakA, m.MinPackV, m.AirDensity}
+	for _, mr := range m.Motors {
+		req = append(req, mr.Revolutions, mr.RunS)
+		for _, b := range mr.Bins {
+			req = append(req, b.Seconds, b.Revolutions)
+		}
+	}
+	for _, e := range m.Events {
+		req = append(req, e.AtS, e.Value, e.Limit)
+	}
+	for _, v := range req {
+		if !isFinite(v) {
+			return errors.New("telemetry: a figure came out non-finite; the parameters are out of range")
+		}
+	}
+	return nil
+}
+
+func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

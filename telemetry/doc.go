@@ -1,0 +1,62 @@
+// Package telemetry parses flight logs and computes per-flight figures from
+// them. It does no I/O beyond reading the log from an io.Reader.
+//
+// # Log format
+//
+// A log is CSV, UTF-8, comma-separated, with one header row naming the
+// columns (in any order). Lines starting with '#' are comments wherever they
+// are; a comment of the form "# key: value" before the header is metadata:
+// start (RFC 3339 time of t_s = 0), airframe (the airframe's code), packs
+// (pack serials, comma-separated); other keys are kept as they are. Lines may
+// end in LF or CRLF; empty lines are skipped. Fields are not quoted, so a
+// text value in an unknown column cannot hold a comma.
+//
+//	column            unit                                   required
+//	t_s               seconds since log start, strictly increasing   yes
+//	pack_v            volts at the pack terminals                     yes
+//	pack_a            amps drawn from the pack(s)                     yes
+//	rpm_<position>    rotor speed, rev/min (rpm_m1, rpm_m2, ...), >= 0 no
+//	throttle          mean command 0..1, for logs without rpm         no
+//	cell_<n>_v        per-cell volts, n = 1..cells (at most 64)       no
+//	baro_pa           static pressure, Pa                             no
+//	temp_c            outside air temperature, deg C                  no
+//	acc_x, acc_y, acc_z  body acceleration, m/s^2 (gravity included)  no
+//	lat, lon          WGS 84 degrees, always together                 no
+//
+// Unknown columns are ignored (any content, empty included) and reported in
+// Log.Unknown. Every recognised value must be a finite number of magnitude at
+// most 1e12. Refused: a missing required column, a recognised column given
+// twice, lat without lon (or the reverse), cell columns not numbered 1..n, an
+// empty value in a recognised column (leave out a column that has no data
+// rather than leave it blank: figures are never computed from guessed
+// samples), a non-numeric value, NaN or infinity, a value outside its
+// column's range (throttle 0..1; rpm and cell volts >= 0; baro_pa > 0;
+// temp_c above -273.15; lat -90..90; lon -180..180), a row with the wrong
+// number of fields, time that does not increase (an equal time is refused),
+// more data rows or bytes than the Limits, an invalid start time, a metadata
+// key given twice, and a log without a header or without data rows. A refusal is a *fleet.Error with code
+// EUNPROCESSABLE, the physical line (1-based, comments and header counted)
+// and the column at fault.
+//
+// Example:
+//
+//	# start: 2026-05-14T09:30:00Z
+//	# airframe: RW-07
+//	# packs: P-0112, P-0113
+//	t_s,pack_v,pack_a,rpm_m1,rpm_m2,rpm_m3,rpm_m4,baro_pa,temp_c
+//	0.00,25.12,0.8,0,0,0,0,98012,14.5
+//	0.02,25.11,0.8,0,0,0,0,98012,14.5
+//	# spin-up
+//	0.04,24.60,18.2,4105,4098,4120,4088,98011,14.5
+//
+// # Figures
+//
+// Analyze integrates by the trapezoidal rule over the actual time steps and
+// returns Metrics: charge, energy, power, current, voltage extremes and rest
+// voltages, DC resistance from current steps, run time and the airborne span,
+// per-motor revolutions and load spectra, the thrust constant k (T = k rpm^2)
+// from mean thrust = weight aloft, a hover efficiency index against
+// momentum-theory ideal power, air density, height above take-off, vibration,
+// landing load, distance flown, and detected events. A figure whose inputs are
+// missing is null, never guessed; Metrics.Notes say what was left out and why.
+package telemetry

@@ -1,0 +1,156 @@
+package telemetry
+
+import (
+	"fmt"
+	"math"
+)
+
+// electrical computes charge, energy, power, current and voltage extremes and
+// rest voltages.
+func (a *analysis) electrical() {
+	l, m, p := a.l, a.m, a.p
+	pw := make([]float64, l.Rows)
+	m.MinPackV = math.Inf(1)
+	m.PeakPowerW, m.PeakA = math.Inf(-1), math.Inf(-1)
+	for i := range pw {
+		pw[i] = l.PackV[i] * l.PackA[i]
+		m.PeakPowerW = max(m.PeakPowerW, pw[i])
+		m.PeakA = max(m.PeakA, l.PackA[i])
+		m.MinPackV = min(m.MinPackV, l.PackV[i])
+	}
+	// mAh = (1000/3600) * integral I dt; Wh = integral V I dt / 3600.
+	m.ChargeMah = Trapezoid(l.T, l.PackA) * 1000 / 3600
+	m.EnergyWh = Trapezoid(l.T, pw) / 3600
+	m.MeanPowerW = meanOver(l.T, pw, 0, l.Rows-1)
+
+	if cv := a.cellVoltage(); cv != nil {
+		lo := math.Inf(1)
+		for _, v := range cv {
+			lo = min(lo, v)
+		}
+		m.MinCellV = ptr(lo)
+		m.MinCellSource = "cells"
+		if l.Cells == nil {
+			m.MinCellSource = "pack_v/cells_s"
+		}
+	} else {
+		a.note("no cell columns and cells_s unknown: minimum cell voltage is not computed")
+	}
+
+	// Rest: the leading and trailing stretches at or below RestCurrentA.
+	first, last := -1, -1
+	for i, c := range l.PackA {
+		if math.Abs(c) > p.RestCurrentA {
+			if first < 0 {
+				first = i
+			}
+			last = i
+		}
+	}
+	switch {
+	case first < 0: // never loaded: one rest stretch
+		v := median(l.PackV)
+		m.RestVStart, m.RestVEnd = ptr(v), ptr(v)
+	default:
+		if first > 0 {
+			m.RestVStart = ptr(median(l.PackV[:first]))
+		}
+		if last < l.Rows-1 {
+			// The later half, since the pack is still recovering from load.
+			tail := l.PackV[last+1:]
+			m.RestVEnd = ptr(median(tail[len(tail)/2:]))
+		}
+	}
+	if m.RestVStart == nil || m.RestVEnd == nil {
+		a.note(fmt.Sprintf("log does not start and end at or below %g A: a rest voltage is missing", p.RestCurrentA))
+	}
+}
+
+// cellVoltage is the lowest cell voltage at each sample, from cell columns,
+// else pack_v / cells_s; nil when neither is known.
+func (a *analysis) cellVoltage() []float64 {
+	l := a.l
+	out := make([]float64, l.Rows)
+	switch {
+	case l.Cells != nil:
+		for i := range out {
+			out[i] = math.Inf(1)
+		}
+		for _, c := range l.Cells {
+			for i, v := range c {
+				out[i] = min(out[i], v)
+			}
+		}
+	case a.p.CellsS > 0:
+		for i, v := range l.PackV {
+			out[i] = v / float64(a.p.CellsS)
+		}
+	default:
+		return nil
+	}
+	return out
+}
+
+// resistance estimates DC resistance from current steps: for each sample i and
+// the first sample j at least IRWindowS later (and at most twice that), a step
+// |I_j - I_i| of at least a tenth of the log's current range gives
+// R = -(V_j - V_i) / (I_j - I_i). The median of the estimates is robust to the
+// ones spoilt by noise or by polarisation.
+func (a *analysis) resistance() {
+	l, m, p := a.l, a.m, a.p
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, c := range l.PackA {
+		lo, hi = min(lo, c), max(hi, c)
+	}
+	step := max(irMinStepA, irMinStepFraction*(hi-lo))
+	w := p.IRWindowS
+	wMin := w * (1 - 1e-9) // so decimal time stamps 0.2 s apart count as 0.2 s
+	var pack []float64
+	cells := make([][]float64, len(l.Cells))
+	j := 0
+	for i := range l.Rows {
+		j = max(j, i+1)
+		for j < l.Rows && l.T[j]-l.T[i] < wMin {
+			j++
+		}
+		if j >= l.Rows {
+			break
+		}
+		if l.T[j]-l.T[i] > 2*w {
+			continue
+		}
+		di := l.PackA[j] - l.PackA[i]
+		if math.Abs(di) < step {
+			continue
+		}
+		pack = append(pack, -(l.PackV[j]-l.PackV[i])/di)
+		for k, c := range l.Cells {
+			cells[k] = append(cells[k], -(c[j]-c[i])/di)
+		}
+	}
+	m.IRSteps = len(pack)
+	if len(pack) < minIRSteps {
+		a.note(fmt.Sprintf("fewer than %d current steps of %.3g A within %g s: resistance is not computed", minIRSteps, step, w))
+		return
+	}
+	r := median(pack)
+	if !(r > 0) {
+		a.note("current steps give no positive resistance: resistance is not computed")
+		return
+	}
+	m.IRMohm = ptr(r * 1000)
+	s := a.p.CellsS
+	if s == 0 {
+		s = len(l.Cells)
+	}
+	if s > 0 {
+		m.IRCellMohm = ptr(r * 1000 / float64(s))
+	}
+	for _, c := range cells {
+		if rc := median(c); rc > 0 {
+			m.IRCellsMohm = append(m.IRCellsMohm, ptr(rc*1000))
+		} else {
+			m.IRCellsMohm = append(m.IRCellsMohm, nil)
+		}
+	}
+}

@@ -1,0 +1,134 @@
+package telemetry
+
+import "fmt"
+
+// MotorRun is one motor position's duty in the flight.
+type MotorRun struct {
+	Position    string   `json:"position"`
+	Revolutions float64  `json:"revolutions"` // integral rpm/60 dt over the whole log
+	RunS        float64  `json:"run_s"`       // time above idle
+	MeanRPM     *float64 `json:"mean_rpm"`    // over the time above idle; null if never above
+	// ThrustMeanN is k x mean rpm^2 over the time above idle (needs ThrustK).
+	ThrustMeanN *float64 `json:"thrust_mean_n"`
+	Bins        []RPMBin `json:"bins"` // load spectrum, turning time only, ascending rpm
+}
+
+// RPMBin is one bin [RPMLo, RPMHi) of a motor's load spectrum.
+type RPMBin struct {
+	RPMLo       float64  `json:"rpm_lo"`
+	RPMHi       float64  `json:"rpm_hi"`
+	Seconds     float64  `json:"seconds"`
+	Revolutions float64  `json:"revolutions"`
+	MeanThrustN *float64 `json:"mean_thrust_n"` // k x mean rpm^2 in the bin (needs ThrustK)
+}
+
+// rotors computes hover rpm, the thrust constant and each motor's run.
+func (a *analysis) rotors() {
+	l, m, p := a.l, a.m, a.p
+	if len(l.RPM) == 0 {
+		return
+	}
+	if a.lo >= 0 {
+		m.HoverRPM = ptr(meanOver(l.T, a.meanRPM, a.lo, a.hi))
+		a.thrustConstant()
+	}
+	w := trapezoidWeights(l.T)
+	for _, r := range l.RPM {
+		mr := MotorRun{Position: r.Position, Revolutions: Trapezoid(l.T, r.RPM) / 60, Bins: []RPMBin{}}
+		var on, onRPM, onRPM2 float64
+		for i, v := range r.RPM {
+			if v > a.idleRPM {
+				on += w[i]
+				onRPM += w[i] * v
+				onRPM2 += w[i] * v * v
+			}
+		}
+		mr.RunS = on
+		if on > 0 {
+			mr.MeanRPM = ptr(onRPM / on)
+			if m.ThrustK != nil {
+				mr.ThrustMeanN = ptr(*m.ThrustK * onRPM2 / on)
+			}
+		}
+		bins, ok := spectrum(r.RPM, w, p.RPMBinWidth, m.ThrustK)
+		if !ok {
+			a.note(fmt.Sprintf("rpm_%s needs more than %d bins of %g rpm: no load spectrum", r.Position, maxBins, p.RPMBinWidth))
+		}
+		mr.Bins = bins
+		m.Motors = append(m.Motors, mr)
+	}
+}
+
+// thrustConstant: aloft, mean total thrust equals the weight (a flight that
+// starts and ends at rest has no net vertical impulse), and T = k rpm^2, so
+// k = m g / (N mean(rpm^2)) with the mean over rotors and airborne time.
+func (a *analysis) thrustConstant() {
+	l, m, p := a.l, a.m, a.p
+	switch {
+	case !(p.MassKg > 0):
+		a.note("take-off mass unknown: thrust constant and thrust figures are not computed")
+		return
+	case p.Rotors > 0 && p.Rotors != len(l.RPM):
+		a.note(fmt.Sprintf("%d rotors but %d rpm columns: thrust constant is not computed", p.Rotors, len(l.RPM)))
+		return
+	}
+	var sum float64
+	sq := make([]float64, l.Rows)
+	for _, r := range l.RPM {
+		for i, v := range r.RPM {
+			sq[i] = v * v
+		}
+		sum += meanOver(l.T, sq, a.lo, a.hi)
+	}
+	if !(sum > 0) {
+		return
+	}
+	m.ThrustK = ptr(p.MassKg * G0 / sum)
+}
+
+// trapezoidWeights are the per-sample weights of the trapezoidal rule, so that
+// sum w_i y_i == Trapezoid(t, y).
+func trapezoidWeights(t []float64) []float64 {
+	w := make([]float64, len(t))
+	for i := 1; i < len(t); i++ {
+		d := (t[i] - t[i-1]) / 2
+		w[i-1] += d
+		w[i] += d
+	}
+	return w
+}
+
+// spectrum bins the turning samples by rpm with trapezoidal weights, so the
+// bins' revolutions add up to the motor's revolutions.
+func spectrum(rpm, w []float64, width float64, k *float64) ([]RPMBin, bool) {
+	top := 0.0
+	for _, v := range rpm {
+		top = max(top, v)
+	}
+	if top/width >= maxBins {
+		return []RPMBin{}, false
+	}
+	n := int(top/width) + 1
+	secs, revs, sq := make([]float64, n), make([]float64, n), make([]float64, n)
+	for i, v := range rpm {
+		if v <= 0 {
+			continue
+		}
+		b := int(v / width)
+		secs[b] += w[i]
+		revs[b] += w[i] * v / 60
+		sq[b] += w[i] * v * v
+	}
+	out := []RPMBin{}
+	for b := range n {
+		if secs[b] == 0 {
+			continue
+		}
+		bin := RPMBin{RPMLo: float64(b) * width, RPMHi: float64(b+1) * width, Seconds: secs[b], Revolutions: revs[b]}
+		if k != nil {
+			bin.MeanThrustN = ptr(*k * sq[b] / secs[b])
+		}
+		out = append(out, bin)
+	}
+	return out, true
+}

@@ -1,0 +1,471 @@
+package telemetry
+
+import (
+	"bufio"
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+	"unsafe"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// Default limits, matching the service's upload limits (64 MiB, 2 million rows).
+const (
+	DefaultMaxRows  = 2_000_000
+	DefaultMaxBytes = 64 << 20
+)
+
+// maxMagnitude bounds every value so that products and integrals of a log stay
+// finite; no real log comes near it.
+const maxMagnitude = 1e12
+
+// Limits bound what Parse accepts. A zero field takes its default.
+type Limits struct {
+	MaxRows  int   // data rows
+	MaxBytes int64 // bytes of input, comments and header included
+}
+
+func (l Limits) withDefaults() Limits {
+	if l.MaxRows <= 0 {
+		l.MaxRows = DefaultMaxRows
+	}
+	if l.MaxBytes <= 0 {
+		l.MaxBytes = DefaultMaxBytes
+	}
+	return l
+}
+
+// Meta is the metadata found in `# key: value` comments before the header.
+type Meta struct {
+	Start    *time.Time        // wall-clock time of t_s = 0
+	Airframe string            // airframe code
+	Packs    []string          // pack serials
+	Other    map[string]string // any other keys, as written
+}
+
+// RotorSeries is one rpm_<position> column.
+type RotorSeries struct {
+	Position string    // the part of the column name after "rpm_"
+	RPM      []float64 // rev/min
+}
+
+// Log is a parsed flight log. Every non-nil series has Rows samples; optional
+// series whose column is absent are nil.
+type Log struct {
+	Meta    Meta
+	Columns []string // recognised columns, in header order
+	Unknown []string // ignored columns, in header order, each once
+	Rows    int
+
+	T, PackV, PackA  []float64
+	RPM              []RotorSeries // in header order
+	Throttle         []float64
+	Cells            [][]float64 // Cells[i] is column cell_<i+1>_v
+	Baro, Temp       []float64
+	AccX, AccY, AccZ []float64
+	Lat, Lon         []float64
+}
+
+// column is how one header column is read.
+type column struct {
+	name   string
+	dst    *[]float64 // nil: ignored
+	lo, hi float64    // accepted range, inclusive
+	loOpen bool       // lo itself is refused
+}
+
+type parser struct {
+	lim    Limits
+	br     *bufio.Reader
+	long   []byte
+	line   int
+	nbytes int64
+	log    *Log
+	cols   []column
+	header int // line of the header, 0 before it
+	tcol   int
+	prevT  float64
+	seen   map[string]bool
+	hint   int // input length when the reader tells it, to size the series once
+}
+
+// Parse reads a flight log (format in the package documentation). It streams
+// the input and refuses a bad file with a *fleet.Error (code EUNPROCESSABLE)
+// naming the physical line and the column at fault. Errors from r itself are
+// returned wrapped, as they are.
+func Parse(r io.Reader, lim Limits) (*Log, error) {
+	lim = lim.withDefaults()
+	p := &parser{
+		lim:  lim,
+		br:   bufio.NewReaderSize(io.LimitReader(r, lim.MaxBytes+1), 64<<10),
+		log:  &Log{},
+		seen: map[string]bool{},
+	}
+	if lr, ok := r.(interface{ Len() int }); ok {
+		p.hint = lr.Len()
+	}
+	for {
+		b, ok, err := p.next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			break
+		}
+		if p.line == 1 {
+			b = bytes.TrimPrefix(b, []byte("\xEF\xBB\xBF"))
+		}
+		if len(bytes.TrimSpace(b)) == 0 {
+			continue
+		}
+		if b[0] == '#' {
+			if p.header == 0 {
+				if err := p.meta(b[1:]); err != nil {
+					return nil, err
+				}
+			}
+			continue
+		}
+		if p.header == 0 {
+			if err := p.parseHeader(b); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		if err := p.row(b); err != nil {
+			return nil, err
+		}
+	}
+	if p.header == 0 {
+		return nil, p.refuse(max(p.line, 1), "", "the log has no header row")
+	}
+	if p.log.Rows == 0 {
+		return nil, p.refuse(p.line, "", "the log has no data rows")
+	}
+	return p.log, nil
+}
+
+// next returns the next physical line without its line ending.
+func (p *parser) next() ([]byte, bool, error) {
+	b, err := p.br.ReadSlice('\n')
+	if errors.Is(err, bufio.ErrBufferFull) {
+		p.long = append(p.long[:0], b...)
+		for errors.Is(err, bufio.ErrBufferFull) {
+			b, err = p.br.ReadSlice('\n')
+			p.long = append(p.long, b...)
+		}
+		b = p.long
+	}
+	if err != nil && err != io.EOF {
+		return nil, false, fmt.Errorf("telemetry: reading log: %w", err)
+	}
+	if len(b) == 0 {
+		return nil, false, nil
+	}
+	p.line++
+	p.nbytes += int64(len(b))
+	if p.nbytes > p.lim.MaxBytes {
+		return nil, false, p.refuse(p.line, "", fmt.Sprintf("the log is larger than the limit of %d bytes", p.lim.MaxBytes))
+	}
+	b = bytes.TrimSuffix(b, []byte{'\n'})
+	b = bytes.TrimSuffix(b, []byte{'\r'})
+	return b, true, nil
+}
+
+func (p *parser) refuse(line int, col, msg string) *fleet.Error {
+	field := fmt.Sprintf("line %d", line)
+	if col != "" {
+		field += ", column " + col
+	}
+	return &fleet.Error{Code: fleet.EUNPROCESSABLE, Message: msg, Field: field, Line: line, Column: col}
+}
+
+// meta reads a comment before the header; only `key: value` forms are metadata.
+func (p *parser) meta(b []byte) error {
+	if !utf8.Valid(b) {
+		return p.refuse(p.line, "", "comment is not valid UTF-8")
+	}
+	s := strings.TrimSpace(string(b))
+	k, v, ok := strings.Cut(s, ":")
+	k = strings.ToLower(strings.TrimSpace(k))
+	if !ok || k == "" || strings.ContainsAny(k, " \t") {
+		return nil
+	}
+	v = strings.TrimSpace(v)
+	if p.seen["#"+k] {
+		return p.refuse(p.line, "", fmt.Sprintf("metadata key %q given twice", k))
+	}
+	p.seen["#"+k] = true
+	m := &p.log.Meta
+	switch k {
+	case "start":
+		t, err := time.Parse(time.RFC3339Nano, v)
+		if err != nil {
+			return p.refuse(p.line, "", fmt.Sprintf("metadata start %q is not an RFC 3339 time", v))
+		}
+		m.Start = &t
+	case "airframe":
+		m.Airframe = v
+	case "packs":
+		for s := range strings.SplitSeq(v, ",") {
+			if s = strings.TrimSpace(s); s != "" {
+				m.Packs = append(m.Packs, s)
+			}
+		}
+	default:
+		if m.Other == nil {
+			m.Other = map[string]string{}
+		}
+		m.Other[k] = v
+	}
+	return nil
+}
+
+func (p *parser) parseHeader(b []byte) error {
+	p.header = p.line
+	if !utf8.Valid(b) {
+		return p.refuse(p.line, "", "header is not valid UTF-8")
+	}
+	names := strings.Split(string(b), ",")
+	l := p.log
+	p.cols = make([]column, len(names))
+	p.tcol = -1
+	unknown := map[string]bool{}
+	maxCell := 0
+	cellIdx := make([]int, len(names))
+	for i, n := range names {
+		n = strings.TrimSpace(n)
+		if n == "" {
+			return p.refuse(p.line, "", fmt.Sprintf("column %d of the header has no name", i+1))
+		}
+		p.cols[i] = column{name: n, lo: math.Inf(-1), hi: math.Inf(1)}
+		if cell, ok := cellNumber(n); ok {
+			cellIdx[i] = cell
+			maxCell = max(maxCell, cell)
+		} else if !knownColumn(n) {
+			if !unknown[n] {
+				unknown[n] = true
+				l.Unknown = append(l.Unknown, n)
+			}
+			continue
+		}
+		if p.seen[n] {
+			return p.refuse(p.line, n, fmt.Sprintf("column %s appears twice", n))
+		}
+		p.seen[n] = true
+		l.Columns = append(l.Columns, n)
+	}
+	for _, req := range []string{"t_s", "pack_v", "pack_a"} {
+		if !p.seen[req] {
+			return p.refuse(p.line, req, fmt.Sprintf("required column %s is missing", req))
+		}
+	}
+	if p.seen["lat"] != p.seen["lon"] {
+		miss := "lat"
+		if p.seen["lat"] {
+			miss = "lon"
+		}
+		return p.refuse(p.line, miss, "lat and lon must be given together; "+miss+" is missing")
+	}
+	for c := 1; c <= maxCell; c++ {
+		if !p.seen[cellName(c)] {
+			return p.refuse(p.line, cellName(c), fmt.Sprintf("cell columns must be numbered 1..%d; %s is missing", maxCell, cellName(c)))
+		}
+	}
+	// Series slices are allocated before pointers are taken so the pointers stay valid.
+	for _, c := range p.cols {
+		if strings.HasPrefix(c.name, "rpm_") && p.seen[c.name] {
+			l.RPM = append(l.RPM, RotorSeries{Position: c.name[4:], RPM: []float64{}})
+		}
+	}
+	if maxCell > 0 {
+		l.Cells = make([][]float64, maxCell)
+	}
+	rotor := 0
+	for i := range p.cols {
+		c := &p.cols[i]
+		if !p.seen[c.name] {
+			continue
+		}
+		switch {
+		case c.name == "t_s":
+			c.dst, p.tcol = &l.T, i
+		case c.name == "pack_v":
+			c.dst = &l.PackV
+		case c.name == "pack_a":
+			c.dst = &l.PackA
+		case c.name == "throttle":
+			c.dst, c.lo, c.hi = &l.Throttle, 0, 1
+		case c.name == "baro_pa":
+			c.dst, c.lo, c.loOpen = &l.Baro, 0, true
+		case c.name == "temp_c":
+			c.dst, c.lo, c.loOpen = &l.Temp, -273.15, true
+		case c.name == "acc_x":
+			c.dst = &l.AccX
+		case c.name == "acc_y":
+			c.dst = &l.AccY
+		case c.name == "acc_z":
+			c.dst = &l.AccZ
+		case c.name == "lat":
+			c.dst, c.lo, c.hi = &l.Lat, -90, 90
+		case c.name == "lon":
+			c.dst, c.lo, c.hi = &l.Lon, -180, 180
+		case strings.HasPrefix(c.name, "rpm_"):
+			c.dst, c.lo = &l.RPM[rotor].RPM, 0
+			rotor++
+		case cellIdx[i] > 0:
+			c.dst, c.lo = &l.Cells[cellIdx[i]-1], 0
+		}
+		*c.dst = []float64{}
+	}
+	return nil
+}
+
+var knownNames = map[string]bool{
+	"t_s": true, "pack_v": true, "pack_a": true, "throttle": true, "baro_pa": true, "temp_c": true,
+	"acc_x": true, "acc_y": true, "acc_z": true, "lat": true, "lon": true,
+}
+
+func knownColumn(n string) bool {
+	return knownNames[n] || (strings.HasPrefix(n, "rpm_") && len(n) > 4)
+}
+
+// cellNumber reads cell_<n>_v with n a positive decimal written without leading zeros.
+func cellNumber(n string) (int, bool) {
+	s, ok := strings.CutPrefix(n, "cell_")
+	if !ok {
+		return 0, false
+	}
+	s, ok = strings.CutSuffix(s, "_v")
+	if !ok {
+		return 0, false
+	}
+	c, err := strconv.Atoi(s)
+	if err != nil || c < 1 || c > 64 || strconv.Itoa(c) != s {
+		return 0, false
+	}
+	return c, true
+}
+
+func cellName(c int) string { return "cell_" + strconv.Itoa(c) + "_v" }
+
+// row parses one data row, appending a value to every recognised series.
+func (p *parser) row(b []byte) error {
+	l := p.log
+	if l.Rows >= p.lim.MaxRows {
+		return p.refuse(p.line, "", fmt.Sprintf("the log has more than the limit of %d data rows", p.lim.MaxRows))
+	}
+	n := len(p.cols)
+	rest := b
+	for k := range n {
+		var f []byte
+		if k < n-1 {
+			i := bytes.IndexByte(rest, ',')
+			if i < 0 {
+				return p.refuse(p.line, p.cols[k+1].name,
+					fmt.Sprintf("row has %d fields, the header has %d", k+1, n))
+			}
+			f, rest = rest[:i], rest[i+1:]
+		} else {
+			if bytes.IndexByte(rest, ',') >= 0 {
+				return p.refuse(p.line, p.cols[k].name,
+					fmt.Sprintf("row has %d fields, the header has %d", n+bytes.Count(rest, []byte{','}), n))
+			}
+			f = rest
+		}
+		c := &p.cols[k]
+		if c.dst == nil {
+			continue
+		}
+		v, err := p.value(c, f)
+		if err != nil {
+			return err
+		}
+		*c.dst = append(*c.dst, v)
+	}
+	t := l.T[len(l.T)-1]
+	if l.Rows > 0 && !(t > p.prevT) {
+		return p.refuse(p.line, "t_s", fmt.Sprintf("time %g s is not after the previous row's %g s", t, p.prevT))
+	}
+	p.prevT = t
+	l.Rows++
+	if l.Rows == 1 && p.hint > 0 {
+		p.reserve(len(b) + 1)
+	}
+	return nil
+}
+
+// reserve sizes every series for the rows the rest of the input can hold at
+// the first row's length, sparing the copies of repeated growth.
+func (p *parser) reserve(rowLen int) {
+	est := min((p.hint-int(p.nbytes))/rowLen*11/10+16, p.lim.MaxRows)
+	for _, c := range p.cols {
+		if c.dst != nil {
+			*c.dst = slices.Grow(*c.dst, est)
+		}
+	}
+}
+
+func (p *parser) value(c *column, f []byte) (float64, error) {
+	f = trimSpace(f)
+	if len(f) == 0 {
+		return 0, p.refuse(p.line, c.name, "empty value in column "+c.name+" (leave out a column with no data rather than leaving it blank)")
+	}
+	v, ok := parseDecimal(f)
+	if ok {
+		return p.check(c, v)
+	}
+	// The string aliases the read buffer only for the call; ParseFloat does not keep
+	// it on success, and on error the message copies it before the buffer moves on.
+	v, err := strconv.ParseFloat(unsafe.String(unsafe.SliceData(f), len(f)), 64)
+	if err != nil {
+		var ne *strconv.NumError
+		if errors.As(err, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
+			return 0, p.refuse(p.line, c.name, fmt.Sprintf("value %.40q in column %s is out of range", f, c.name))
+		}
+		return 0, p.refuse(p.line, c.name, fmt.Sprintf("value %.40q in column %s is not a number", f, c.name))
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, p.refuse(p.line, c.name, fmt.Sprintf("value %.40q in column %s is NaN or infinite", f, c.name))
+	}
+	return p.check(c, v)
+}
+
+// check applies the magnitude bound and the column's range.
+func (p *parser) check(c *column, v float64) (float64, error) {
+	if math.Abs(v) > maxMagnitude {
+		return 0, p.refuse(p.line, c.name, fmt.Sprintf("value %g in column %s is beyond %g, taken as corrupt", v, c.name, maxMagnitude))
+	}
+	if v < c.lo || v > c.hi || (c.loOpen && v == c.lo) {
+		return 0, p.refuse(p.line, c.name, fmt.Sprintf("value %g in column %s is outside %s", v, c.name, rangeText(c)))
+	}
+	return v, nil
+}
+
+func rangeText(c *column) string {
+	switch {
+	case math.IsInf(c.hi, 1) && c.loOpen:
+		return fmt.Sprintf("the accepted range (above %g)", c.lo)
+	case math.IsInf(c.hi, 1):
+		return fmt.Sprintf("the accepted range (%g or more)", c.lo)
+	}
+	return fmt.Sprintf("the accepted range %g..%g", c.lo, c.hi)
+}
+
+func trimSpace(f []byte) []byte {
+	for len(f) > 0 && (f[0] == ' ' || f[0] == '\t') {
+		f = f[1:]
+	}
+	for len(f) > 0 && (f[len(f)-1] == ' ' || f[len(f)-1] == '\t') {
+		f = f[:len(f)-1]
+	}
+	return f
+}
