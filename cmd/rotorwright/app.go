@@ -1,0 +1,197 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"log/slog"
+	"net"
+	"net/http"
+	"os"
+	"time"
+
+	"github.com/rotorwright/rotorwright/api"
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/pglocal"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// App is the wired service: database (embedded or given), store and API.
+type App struct {
+	cfg     Config
+	log     *slog.Logger
+	cluster *pglocal.Cluster
+	DB      *store.DB
+	// Addr is the address the server listens on, once Run has started.
+	Addr   chan string
+	server *http.Server
+}
+
+// NewApp makes an unopened app.
+func NewApp(cfg Config) *App {
+	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: cfg.LogLevel}))
+	return &App{cfg: cfg, log: log, Addr: make(chan string, 1)}
+}
+
+// Open starts the embedded database when no URL is configured, connects and
+// migrates.
+func (a *App) Open(ctx context.Context) error {
+	url := a.cfg.DatabaseURL
+	if url == "" {
+		a.log.Info("starting embedded PostgreSQL", "home", a.cfg.Home)
+		c, err := pglocal.Start(ctx, pglocal.Options{Dir: a.cfg.Home, Database: "rotorwright",
+			Logf: func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }})
+		if err != nil {
+			return err
+		}
+		a.cluster = c
+		url = c.URL("rotorwright")
+	}
+	db, err := store.Open(ctx, url)
+	if err != nil {
+		return err
+	}
+	a.DB = db
+	if err := db.Migrate(ctx, func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }); err != nil {
+		return fmt.Errorf("migrate: %w", err)
+	}
+	return nil
+}
+
+// Run serves the API until ctx ends, then drains requests and returns.
+func (a *App) Run(ctx context.Context) error {
+	srv := api.New(a.DB, a.log, api.DefaultLimits)
+	a.server = &http.Server{
+		Handler:           srv.Handler(),
+		ReadHeaderTimeout: 10 * time.Second,
+		ReadTimeout:       5 * time.Minute, // log uploads may be large
+		WriteTimeout:      2 * time.Minute,
+		IdleTimeout:       2 * time.Minute,
+		MaxHeaderBytes:    64 << 10,
+	}
+	ln, err := net.Listen("tcp", a.cfg.Addr)
+	if err != nil {
+		return fmt.Errorf("listen %s: %w", a.cfg.Addr, err)
+	}
+	addr := ln.Addr().String()
+	a.log.Info("listening", "addr", addr)
+	a.Addr <- addr
+	errc := make(chan error, 1)
+	go func() { errc <- a.server.Serve(ln) }()
+	select {
+	case err := <-errc:
+		return err
+	case <-ctx.Done():
+	}
+	a.log.Info("shutting down")
+	shutdownCtx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	if err := a.server.Shutdown(shutdownCtx); err != nil {
+		return err
+	}
+	if err := <-errc; !errors.Is(err, http.ErrServerClosed) {
+		return err
+	}
+	return nil
+}
+
+// Close closes the pool, then stops the embedded database.
+func (a *App) Close() error {
+	if a.DB != nil {
+		a.DB.Close()
+	}
+	if a.cluster != nil {
+		ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+		defer cancel()
+		a.log.Info("stopping embedded PostgreSQL")
+		return a.cluster.Stop(ctx)
+	}
+	return nil
+}
+
+func cmdServe(ctx context.Context, cfg Config, args []string, demo bool) error {
+	name := "serve"
+	if demo {
+		name = "demo"
+	}
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	cfg.flags(fs)
+	months := 4
+	if demo {
+		fs.IntVar(&months, "months", months, "months of simulated flights in the demo fleet")
+	}
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	app := NewApp(cfg)
+	defer app.Close()
+	start := time.Now()
+	if err := app.Open(ctx); err != nil {
+		return err
+	}
+	if !demo {
+		return app.Run(ctx)
+	}
+	token, err := runDemo(ctx, app, months)
+	if err != nil {
+		return err
+	}
+	errc := make(chan error, 1)
+	go func() { errc <- app.Run(ctx) }()
+	select {
+	case addr := <-app.Addr:
+		printDemoBanner(addr, token, time.Since(start))
+	case err := <-errc:
+		return err
+	}
+	return <-errc
+}
+
+func cmdMigrate(ctx context.Context, cfg Config, args []string) error {
+	fs := flag.NewFlagSet("migrate", flag.ContinueOnError)
+	cfg.flags(fs)
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	app := NewApp(cfg)
+	defer app.Close()
+	if err := app.Open(ctx); err != nil {
+		return err
+	}
+	app.log.Info("schema up to date")
+	return nil
+}
+
+func cmdKey(ctx context.Context, cfg Config, args []string) error {
+	if len(args) == 0 || args[0] != "create" {
+		return fmt.Errorf("usage: rotorwright key create --name N --role R")
+	}
+	fs := flag.NewFlagSet("key create", flag.ContinueOnError)
+	cfg.flags(fs)
+	name := fs.String("name", "", "who or what holds the key")
+	role := fs.String("role", "", "viewer, pilot, technician or admin")
+	if err := fs.Parse(args[1:]); err != nil {
+		return err
+	}
+	app := NewApp(cfg)
+	defer app.Close()
+	if err := app.Open(ctx); err != nil {
+		return err
+	}
+	ctx = store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})
+	_, token, err := app.DB.CreateKey(ctx, *name, fleet.Role(*role))
+	if err != nil {
+		return fmt.Errorf("%s", fleet.ErrorMessage(err)+fieldSuffix(err))
+	}
+	fmt.Println(token)
+	return nil
+}
+
+func fieldSuffix(err error) string {
+	var fe *fleet.Error
+	if errors.As(err, &fe) && fe.Field != "" {
+		return " (" + fe.Field + ")"
+	}
+	return ""
+}

@@ -1,0 +1,179 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"io"
+	"net/http"
+	"os"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"github.com/rotorwright/rotorwright/internal/pgtest"
+	"github.com/rotorwright/rotorwright/migrations"
+)
+
+func TestMain(m *testing.M) {
+	pgtest.Main(m, func(ctx context.Context, url string) error {
+		conn, err := pgx.Connect(ctx, url)
+		if err != nil {
+			return err
+		}
+		defer conn.Close(ctx)
+		return migrations.Migrate(ctx, conn, nil)
+	})
+}
+
+// startApp opens and runs the real app on a free loopback port.
+func startApp(t *testing.T, cfg Config) (*App, string, context.CancelFunc) {
+	t.Helper()
+	cfg.Addr = "127.0.0.1:0"
+	app := NewApp(cfg)
+	ctx, cancel := context.WithCancel(context.Background())
+	if err := app.Open(ctx); err != nil {
+		cancel()
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- app.Run(ctx) }()
+	var addr string
+	select {
+	case addr = <-app.Addr:
+	case err := <-done:
+		t.Fatal(err)
+	case <-time.After(30 * time.Second):
+		t.Fatal("app did not start listening")
+	}
+	t.Cleanup(func() {
+		cancel()
+		if err := <-done; err != nil {
+			t.Error(err)
+		}
+		if err := app.Close(); err != nil {
+			t.Error(err)
+		}
+	})
+	return app, addr, cancel
+}
+
+func get(t *testing.T, url, token string, v any) int {
+	t.Helper()
+	req, _ := http.NewRequest("GET", url, nil)
+	if token != "" {
+		req.Header.Set("Authorization", "Bearer "+token)
+	}
+	res, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer res.Body.Close()
+	if v != nil {
+		if err := json.NewDecoder(res.Body).Decode(v); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return res.StatusCode
+}
+
+// The demo on a given database: the firm is loaded once, the admin token
+// works, and the planted supplier lot is found across jobs.
+func TestDemoEndToEnd(t *testing.T) {
+	t.Parallel()
+	app, addr, _ := startApp(t, Config{DatabaseURL: pgtest.NewDB(t)})
+	token, err := runDemo(context.Background(), app, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var list struct {
+		Items []struct{ Code string } `json:"items"`
+	}
+	if s := get(t, "http://"+addr+"/v1/airframes?limit=100", token, &list); s != 200 || len(list.Items) < 10 {
+		t.Fatalf("airframes: %d, %d items", s, len(list.Items))
+	}
+	// Loading again is a no-op: still the same airframes.
+	if _, err := runDemo(context.Background(), app, 2); err != nil {
+		t.Fatal(err)
+	}
+	n := len(list.Items)
+	get(t, "http://"+addr+"/v1/airframes?limit=100", token, &list)
+	if len(list.Items) != n {
+		t.Fatalf("second demo run changed the fleet: %d -> %d airframes", n, len(list.Items))
+	}
+	if s := get(t, "http://"+addr+"/readyz", "", nil); s != 200 {
+		t.Fatalf("readyz %d", s)
+	}
+	if s := get(t, "http://"+addr+"/v1/airframes", "", nil); s != 401 {
+		t.Fatalf("no token: %d", s)
+	}
+}
+
+// With no DATABASE_URL the app runs its own PostgreSQL in the home folder
+// and stops it on Close.
+func TestEmbeddedDefault(t *testing.T) {
+	t.Parallel()
+	home, err := os.MkdirTemp("", "rotorwright-home-")
+	if err != nil {
+		t.Fatal(err)
+	}
+	os.Chmod(home, 0o755)
+	t.Cleanup(func() { os.RemoveAll(home) })
+	_, addr, _ := startApp(t, Config{Home: home})
+	if s := get(t, "http://"+addr+"/readyz", "", nil); s != 200 {
+		t.Fatalf("readyz on the embedded database: %d", s)
+	}
+	if _, err := os.Stat(home + "/pgdata/PG_VERSION"); err != nil {
+		t.Fatalf("no cluster in the home folder: %v", err)
+	}
+}
+
+// key create prints the token alone on standard output.
+func TestKeyCreatePrintsTokenOnly(t *testing.T) {
+	t.Parallel()
+	url := pgtest.NewDB(t)
+	out := captureStdout(t, func() {
+		if err := run(context.Background(), []string{"key", "create", "--name", "ops script", "--role", "viewer", "--database-url", url}); err != nil {
+			t.Fatal(err)
+		}
+	})
+	token := strings.TrimSpace(out)
+	if !strings.HasPrefix(token, "rw_") || strings.ContainsAny(token, " \n") || len(token) < 40 {
+		t.Fatalf("stdout %q is not a lone token", out)
+	}
+	_, addr, _ := startApp(t, Config{DatabaseURL: url})
+	if s := get(t, "http://"+addr+"/v1/airframes", token, nil); s != 200 {
+		t.Fatalf("the printed token does not work: %d", s)
+	}
+	if s := get(t, "http://"+addr+"/v1/keys", token, nil); s != 403 {
+		t.Fatalf("a viewer token reached the admin route: %d", s)
+	}
+	if err := run(context.Background(), []string{"key", "create", "--name", "x", "--role", "pilot-in-command", "--database-url", url}); err == nil ||
+		!strings.Contains(err.Error(), "role") {
+		t.Fatalf("bad role: err = %v, want it to name the role", err)
+	}
+}
+
+// captureStdout runs fn with os.Stdout redirected; no other test of this
+// package writes to stdout, so running in parallel is safe.
+func captureStdout(t *testing.T, fn func()) string {
+	t.Helper()
+	r, w, err := os.Pipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	old := os.Stdout
+	os.Stdout = w
+	done := make(chan []byte)
+	go func() {
+		var b bytes.Buffer
+		io.Copy(&b, r)
+		done <- b.Bytes()
+	}()
+	defer func() { os.Stdout = old }()
+	fn()
+	w.Close()
+	return string(<-done)
+}
