@@ -1,13 +1,17 @@
 package api
 
 import (
+	"errors"
 	"fmt"
+	"io"
 	"net/http"
+	"strings"
 	"time"
 
 	"github.com/gin-gonic/gin"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -28,9 +32,12 @@ type flightInput struct {
 func (in *flightInput) flight() (*fleet.Flight, error) {
 	f := &fleet.Flight{Pilot: in.Pilot, TakeoffAt: in.TakeoffAt, LandingAt: in.LandingAt,
 		TakeoffMassG: in.TakeoffMassG, SiteElevationM: in.SiteElevationM, Notes: in.Notes}
-	var err error
-	if f.AirframeID, err = store.ParseID("airframe_id", in.AirframeID); err != nil {
-		return nil, err
+	if in.AirframeID != "" { // missing is refused by validation, or filled from a log
+		id, err := store.ParseID("airframe_id", in.AirframeID)
+		if err != nil {
+			return nil, err
+		}
+		f.AirframeID = id
 	}
 	if in.JobID != nil {
 		id, err := store.ParseID("job_id", *in.JobID)
@@ -49,7 +56,13 @@ func (in *flightInput) flight() (*fleet.Flight, error) {
 	return f, nil
 }
 
+// createFlight records a flight: JSON for a manual entry, or multipart with
+// a `flight` JSON part and a `log` CSV part for an uploaded log.
 func (s *Server) createFlight(c *gin.Context) {
+	if strings.HasPrefix(c.ContentType(), "multipart/") {
+		s.uploadFlight(c)
+		return
+	}
 	var in flightInput
 	if err := s.decodeJSON(c, &in); err != nil {
 		s.fail(c, err)
@@ -66,7 +79,125 @@ func (s *Server) createFlight(c *gin.Context) {
 		return
 	}
 	c.Header("Location", "/v1/flights/"+out.ID)
-	c.JSON(http.StatusCreated, out)
+	c.JSON(http.StatusCreated, store.NewFlightDetail(out))
+}
+
+// uploadInput is the `flight` part of an upload: everything optional that
+// the log's metadata can supply.
+type uploadInput struct {
+	AirframeID     *string    `json:"airframe_id"`
+	JobID          *string    `json:"job_id"`
+	Pilot          string     `json:"pilot"`
+	TakeoffAt      *time.Time `json:"takeoff_at"`
+	LandingAt      *time.Time `json:"landing_at"`
+	Packs          []string   `json:"packs"`
+	TakeoffMassG   *float64   `json:"takeoff_mass_g"`
+	SiteElevationM *float64   `json:"site_elevation_m"`
+	Notes          string     `json:"notes"`
+}
+
+// uploadFlight ingests a log: 201 with the new flight, or 200 with the flight
+// already recorded from the same log.
+func (s *Server) uploadFlight(c *gin.Context) {
+	c.Request.Body = http.MaxBytesReader(c.Writer, c.Request.Body, s.limits.LogBytes+s.limits.JSONBytes)
+	mr, err := c.Request.MultipartReader()
+	if err != nil {
+		s.fail(c, fleet.Errorf(fleet.EINVALID, "send multipart/form-data with a flight part and a log part"))
+		return
+	}
+	var in uploadInput
+	var logData []byte
+	var haveFlight bool
+	for {
+		part, err := mr.NextPart()
+		if err == io.EOF {
+			break
+		} else if err != nil {
+			s.fail(c, uploadError(err, s.limits))
+			return
+		}
+		switch part.FormName() {
+		case "flight":
+			b, err := io.ReadAll(io.LimitReader(part, s.limits.JSONBytes+1))
+			if err != nil {
+				s.fail(c, uploadError(err, s.limits))
+				return
+			}
+			if int64(len(b)) > s.limits.JSONBytes {
+				s.fail(c, &fleet.Error{Code: fleet.ETOOLARGE, Field: "flight", Message: "the flight part is over the JSON limit"})
+				return
+			}
+			if err := strictUnmarshal(b, &in); err != nil {
+				s.fail(c, err)
+				return
+			}
+			haveFlight = true
+		case "log":
+			if logData, err = io.ReadAll(io.LimitReader(part, s.limits.LogBytes+1)); err != nil {
+				s.fail(c, uploadError(err, s.limits))
+				return
+			}
+			if int64(len(logData)) > s.limits.LogBytes {
+				s.fail(c, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "log",
+					Message: fmt.Sprintf("the log is over %d bytes", s.limits.LogBytes)})
+				return
+			}
+		default:
+			s.fail(c, fleet.FieldError(part.FormName(), "is not a known part (send flight and log)"))
+			return
+		}
+	}
+	if !haveFlight || logData == nil {
+		s.fail(c, fleet.FieldError("log", "send both a flight part (JSON) and a log part (CSV)"))
+		return
+	}
+	f, err := in.flight()
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	d, err := s.db.FlightDetail(c.Request.Context(), res.FlightID)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	status := http.StatusOK
+	if res.Created {
+		status = http.StatusCreated
+	}
+	c.Header("Location", "/v1/flights/"+d.ID)
+	c.JSON(status, d)
+}
+
+func (in *uploadInput) flight() (*fleet.Flight, error) {
+	full := flightInput{JobID: in.JobID, Pilot: in.Pilot, Packs: in.Packs, TakeoffMassG: in.TakeoffMassG,
+		SiteElevationM: in.SiteElevationM, Notes: in.Notes}
+	if in.TakeoffAt != nil {
+		full.TakeoffAt = *in.TakeoffAt
+	}
+	if in.LandingAt != nil {
+		full.LandingAt = *in.LandingAt
+	}
+	if (in.TakeoffAt == nil) != (in.LandingAt == nil) {
+		return nil, fleet.FieldError("landing_at", "give both takeoff_at and landing_at, or neither")
+	}
+	if in.AirframeID != nil {
+		full.AirframeID = *in.AirframeID
+	}
+	return full.flight()
+}
+
+func uploadError(err error, l Limits) error {
+	var mbe *http.MaxBytesError
+	if errors.As(err, &mbe) {
+		return fleet.Errorf(fleet.ETOOLARGE, "upload over %d bytes", l.LogBytes+l.JSONBytes)
+	}
+	return fleet.Errorf(fleet.EINVALID, "malformed multipart body")
 }
 
 func (s *Server) listFlights(c *gin.Context) {
@@ -106,10 +237,31 @@ func (s *Server) getFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	f, err := s.db.Flight(c.Request.Context(), id)
+	d, err := s.db.FlightDetail(c.Request.Context(), id)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
-	c.JSON(http.StatusOK, f)
+	c.JSON(http.StatusOK, d)
+}
+
+// getFlightLog returns the stored log exactly as uploaded.
+func (s *Server) getFlightLog(c *gin.Context) {
+	id, err := pathID(c, "flight")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	gz, err := s.db.RawLog(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	raw, err := ingest.Decompress(gz)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.Header("Content-Disposition", `attachment; filename="flight-`+id+`.csv"`)
+	c.Data(http.StatusOK, "text/csv; charset=utf-8", raw)
 }

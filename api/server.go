@@ -13,23 +13,28 @@ import (
 	"github.com/gin-gonic/gin"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/openapi"
 	"github.com/rotorwright/rotorwright/store"
+	"github.com/rotorwright/rotorwright/telemetry"
 )
 
 // Limits bound what one request may send.
 type Limits struct {
 	JSONBytes int64 // request bodies other than log uploads
+	LogBytes  int64 // one uploaded flight log
+	LogRows   int   // data rows of one flight log
 }
 
 // DefaultLimits are the limits of DESIGN section 8.
-var DefaultLimits = Limits{JSONBytes: 1 << 20}
+var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_000_000}
 
 // Server holds the handlers' dependencies.
 type Server struct {
 	db     *store.DB
 	log    *slog.Logger
 	limits Limits
+	ingest *ingest.Ingester
 	engine *gin.Engine
 }
 
@@ -76,6 +81,7 @@ var Routes = []Route{
 	{Method: "GET", Path: "/v1/flights", Role: fleet.RoleViewer, handler: (*Server).listFlights},
 	{Method: "POST", Path: "/v1/flights", Role: fleet.RolePilot, handler: (*Server).createFlight},
 	{Method: "GET", Path: "/v1/flights/:id", Role: fleet.RoleViewer, handler: (*Server).getFlight},
+	{Method: "GET", Path: "/v1/flights/:id/log", Role: fleet.RoleViewer, handler: (*Server).getFlightLog},
 
 	{Method: "GET", Path: "/v1/trace", Role: fleet.RoleViewer, handler: (*Server).trace},
 
@@ -94,9 +100,16 @@ var Routes = []Route{
 // New builds the server and its router.
 func New(db *store.DB, log *slog.Logger, limits Limits) *Server {
 	if limits.JSONBytes == 0 {
-		limits = DefaultLimits
+		limits.JSONBytes = DefaultLimits.JSONBytes
 	}
-	s := &Server{db: db, log: log, limits: limits}
+	if limits.LogBytes == 0 {
+		limits.LogBytes = DefaultLimits.LogBytes
+	}
+	if limits.LogRows == 0 {
+		limits.LogRows = DefaultLimits.LogRows
+	}
+	s := &Server{db: db, log: log, limits: limits,
+		ingest: &ingest.Ingester{DB: db, Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes}}}
 	gin.SetMode(gin.ReleaseMode)
 	e := gin.New()
 	e.HandleMethodNotAllowed = true

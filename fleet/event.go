@@ -22,6 +22,7 @@ type Event struct {
 	ResolvedAt *time.Time `json:"resolved_at"`
 	Resolution *string    `json:"resolution"`
 	ResolvedBy *string    `json:"resolved_by"`
+	Detected   bool       `json:"detected"` // opened by the log analysis, not a person
 	Version    int        `json:"version"`
 	CreatedAt  time.Time  `json:"created_at"`
 }

@@ -237,12 +237,15 @@ func (db *DB) PartHistory(ctx context.Context, id string) (*History, error) {
 	if err != nil {
 		return nil, translate(err)
 	}
-	h.Fits, err = collect(rows, func(r pgx.Row) (HistoryFit, error) {
+	fits, err := collect(rows, func(r pgx.Row) (HistoryFit, error) {
 		var f HistoryFit
 		return f, r.Scan(&f.ID, &f.PartID, &f.AirframeID, &f.Kind, &f.Position, &f.FittedAt, &f.RemovedAt, &f.RemovalReason, &f.AirframeCode)
 	})
 	if err != nil {
 		return nil, err
+	}
+	if fits != nil {
+		h.Fits = fits
 	}
 	rows, err = db.pool.Query(ctx, `
 		WITH flown AS (

@@ -3,6 +3,7 @@ package telemetry
 import (
 	"errors"
 	"math"
+	"sort"
 
 	"github.com/rotorwright/rotorwright/fleet"
 )
@@ -44,7 +45,7 @@ type Params struct {
 	RatedMah       float64         // rated capacity of the pack(s) feeding pack_a, combined
 	CRating        float64         // continuous discharge rating, in C
 	SiteElevationM float64         // take-off site elevation, for ISA density when baro/temp are absent
-	Airborne       *Span           // take-off to landing when known; else the motor run span
+	Airborne       *Span           // take-off to landing when known; else found from the rotor level
 
 	HardLandingG      float64 // default DefaultHardLandingG
 	IdleRPM           float64 // default DefaultIdleRPMFraction x peak mean rotor rpm
@@ -108,8 +109,9 @@ type Metrics struct {
 	LogS    float64 `json:"log_s"` // last minus first t_s
 	// RunS is the time with the rotors (mean rpm, else throttle) above idle.
 	RunS *float64 `json:"run_s"`
-	// The airborne span is Params.Airborne, else first to last sample above
-	// idle (a log holding two flights gives one span across both).
+	// The airborne span is Params.Airborne, else first to last sample at or
+	// above LiftFraction of the run's median rotor level (a log holding two
+	// flights gives one span across both).
 	AirborneFromS *float64 `json:"airborne_from_s"`
 	AirborneToS   *float64 `json:"airborne_to_s"`
 
@@ -267,7 +269,7 @@ func (a *analysis) activity() {
 		}
 		m.RunS = ptr(Trapezoid(l.T, on))
 		if first >= 0 && a.p.Airborne == nil {
-			a.lo, a.hi = first, last
+			a.lo, a.hi = liftSpan(level, first, last)
 		}
 	}
 	if s := a.p.Airborne; s != nil {
@@ -286,6 +288,30 @@ func (a *analysis) activity() {
 	} else if level != nil || a.p.Airborne != nil {
 		a.note("no sample above idle (or inside the given airborne span): airborne figures are not computed")
 	}
+}
+
+// LiftFraction is the share of the run's median rotor level (rpm, else
+// throttle) above which the aircraft is taken to be airborne when the flight
+// does not state its take-off and landing. Thrust goes as rpm^2, so below
+// about hover rpm the rotors cannot lift the aircraft, while ground idle sits
+// well under it (common practice: idle at a fifth to two fifths of hover rpm).
+const LiftFraction = 0.8
+
+// liftSpan narrows the run span [first, last] to the samples from the first
+// to the last at or above LiftFraction of the run's median level, so that
+// idling on the ground before take-off and after landing is not airborne.
+func liftSpan(level []float64, first, last int) (lo, hi int) {
+	run := append([]float64(nil), level[first:last+1]...)
+	sort.Float64s(run)
+	threshold := LiftFraction * run[len(run)/2]
+	lo, hi = first, last
+	for lo < last && level[lo] < threshold {
+		lo++
+	}
+	for hi > lo && level[hi] < threshold {
+		hi--
+	}
+	return lo, hi
 }
 
 // air picks the air density: measured when baro and temperature exist, else ISA.

@@ -1,0 +1,341 @@
+// Package ingest turns an uploaded flight log into a recorded flight: parse,
+// analyse with the facts the register holds, and store it all in one
+// transaction. Stored logs can be re-analysed when the model changes.
+package ingest
+
+import (
+	"bytes"
+	"compress/gzip"
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+	"github.com/rotorwright/rotorwright/telemetry"
+)
+
+// AnalysisVersion numbers the analysis model; raise it when figures change
+// so that `rotorwright reanalyze` knows what is stale.
+const AnalysisVersion = 1
+
+// Ingester ingests logs into the store.
+type Ingester struct {
+	DB     *store.DB
+	Limits telemetry.Limits
+	// HardLandingG overrides the analysis's hard-landing threshold (0: default).
+	HardLandingG float64
+}
+
+// Request is one upload: the flight as the pilot states it (any of airframe,
+// times and packs may be left for the log's metadata to supply) and the log.
+type Request struct {
+	Flight fleet.Flight
+	Log    []byte
+}
+
+// Result says which flight the log belongs to and whether it is new.
+type Result struct {
+	FlightID string
+	Created  bool
+	Unknown  []string // columns the parser ignored
+}
+
+// Ingest parses, analyses and stores one log. The same log for the same
+// airframe returns the flight already recorded (Created false).
+func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
+	sum := sha256.Sum256(req.Log)
+	sha := hex.EncodeToString(sum[:])
+	log, err := telemetry.Parse(bytes.NewReader(req.Log), in.Limits)
+	if err != nil {
+		return Result{}, err
+	}
+	f := req.Flight
+	if err := in.resolve(ctx, &f, log); err != nil {
+		return Result{}, err
+	}
+	if id, err := in.DB.FlightIDByLog(ctx, f.AirframeID, sha); err == nil {
+		return Result{FlightID: id, Unknown: log.Unknown}, nil
+	} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
+		return Result{}, err
+	}
+	facts, err := in.DB.FlightFacts(ctx, f.AirframeID, packIDs(f.Packs))
+	if err != nil {
+		return Result{}, err
+	}
+	a, err := in.analyse(log, &f, facts)
+	if err != nil {
+		return Result{}, err
+	}
+	f.Source, f.LogSHA256 = fleet.SourceLog, &sha
+	gz, err := compress(req.Log)
+	if err != nil {
+		return Result{}, err
+	}
+	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz,
+		RawBytes: int64(len(req.Log)), Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Analysis: a})
+	return Result{FlightID: id, Created: created, Unknown: log.Unknown}, err
+}
+
+// resolve fills the airframe and packs from the log's metadata when the
+// request leaves them out, and refuses a request that contradicts the log.
+func (in *Ingester) resolve(ctx context.Context, f *fleet.Flight, log *telemetry.Log) error {
+	if code := log.Meta.Airframe; code != "" {
+		a, err := in.DB.AirframeByCode(ctx, code)
+		switch {
+		case err == nil && f.AirframeID != "" && f.AirframeID != a.ID:
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id",
+				Message: fmt.Sprintf("the log's '# airframe: %s' is another airframe", code)}
+		case err == nil:
+			f.AirframeID = a.ID
+		case fleet.ErrorCode(err) == fleet.ENOTFOUND && f.AirframeID == "":
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id",
+				Message: fmt.Sprintf("the log names airframe %q, which is not in the register", code)}
+		case fleet.ErrorCode(err) != fleet.ENOTFOUND:
+			return err
+		}
+	}
+	if f.AirframeID == "" {
+		return fleet.FieldError("airframe_id", "give airframe_id, or a '# airframe: CODE' line in the log")
+	}
+	if len(f.Packs) == 0 {
+		for i, serial := range log.Meta.Packs {
+			p, err := in.DB.PartBySerial(ctx, fleet.KindPack, serial)
+			if err != nil {
+				if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+					return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "packs",
+						Message: fmt.Sprintf("the log names pack %q, which is not in the register", serial)}
+				}
+				return err
+			}
+			f.Packs = append(f.Packs, fleet.FlightPack{PartID: p.ID, Slot: i + 1})
+		}
+	}
+	return nil
+}
+
+// analyse runs the analysis with the register's facts and settles the
+// flight's take-off and landing times.
+func (in *Ingester) analyse(log *telemetry.Log, f *fleet.Flight, facts *store.FlightFacts) (*store.Analysis, error) {
+	p := in.params(f, facts)
+	start := log.Meta.Start
+	timed := !f.TakeoffAt.IsZero() && !f.LandingAt.IsZero()
+	if timed && start != nil {
+		p.Airborne = &telemetry.Span{FromS: f.TakeoffAt.Sub(*start).Seconds(), ToS: f.LandingAt.Sub(*start).Seconds()}
+		if p.Airborne.FromS < log.T[0] || p.Airborne.ToS > log.T[len(log.T)-1] {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "takeoff_at",
+				Message: "take-off and landing must fall within the log's time span"}
+		}
+	}
+	m, err := telemetry.Analyze(log, p)
+	if err != nil {
+		return nil, err
+	}
+	if !timed {
+		if start == nil || m.AirborneFromS == nil || m.AirborneToS == nil {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "takeoff_at",
+				Message: "give takeoff_at and landing_at: the log has no '# start:' time or shows no rotor run"}
+		}
+		f.TakeoffAt = start.Add(secs(*m.AirborneFromS)).Round(time.Millisecond)
+		f.LandingAt = start.Add(secs(*m.AirborneToS)).Round(time.Millisecond)
+	}
+	if start == nil && m.AirborneFromS != nil {
+		s := f.TakeoffAt.Add(-secs(*m.AirborneFromS))
+		start = &s
+	}
+	return toAnalysis(m, f, start)
+}
+
+// params are the facts about the flight the log does not carry.
+func (in *Ingester) params(f *fleet.Flight, facts *store.FlightFacts) telemetry.Params {
+	a := facts.Airframe
+	p := telemetry.Params{Rotors: len(facts.Layout.Positions), CellsS: a.CellsS, HardLandingG: in.HardLandingG}
+	if a.RotorDiameterMM != nil {
+		p.RotorDiameterM = *a.RotorDiameterMM / 1000
+	}
+	if f.SiteElevationM != nil {
+		p.SiteElevationM = *f.SiteElevationM
+	}
+	// Take-off mass: as stated, else ready-to-fly mass plus the packs when all are known.
+	if f.TakeoffMassG != nil {
+		p.MassKg = *f.TakeoffMassG / 1000
+	} else if a.EmptyMassG != nil {
+		mass, known := *a.EmptyMassG, true
+		for _, pk := range facts.Packs {
+			if pk.MassG == nil {
+				known = false
+				break
+			}
+			mass += *pk.MassG
+		}
+		if known && len(facts.Packs) > 0 {
+			p.MassKg = mass / 1000
+		}
+	}
+	for i, pk := range facts.Packs {
+		s, err := fleet.PackSpecsOf(pk)
+		if err != nil {
+			continue
+		}
+		p.RatedMah += s.RatedMah // packs in parallel add capacity
+		if i == 0 {
+			p.Chemistry, p.CellsS = s.Chemistry, s.CellsS
+			if s.CRating != nil {
+				p.CRating = *s.CRating
+			}
+		}
+	}
+	return p
+}
+
+func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, start *time.Time) (*store.Analysis, error) {
+	raw, err := json.Marshal(m)
+	if err != nil {
+		return nil, err
+	}
+	a := &store.Analysis{Version: AnalysisVersion, Metrics: raw, Key: store.KeyMetrics{
+		RunS: m.RunS, ChargeMah: m.ChargeMah, EnergyWh: m.EnergyWh, MeanPowerW: m.MeanPowerW, PeakA: m.PeakA,
+		MinPackV: m.MinPackV, MinCellV: m.MinCellV, RestVStart: m.RestVStart, RestVEnd: m.RestVEnd,
+		IRmOhm: m.IRMohm, HoverRPM: m.HoverRPM, ThrustK: m.ThrustK, EfficiencyIndex: m.EfficiencyIndex,
+		VibrationRMS: vibrationTotal(m.Vibration), LandingG: m.LandingG, MaxAltM: m.MaxAltM,
+		DistanceM: m.DistanceM, AirDensity: m.AirDensity}}
+	for _, r := range m.Motors {
+		bins, err := json.Marshal(r.Bins)
+		if err != nil {
+			return nil, err
+		}
+		a.Motors = append(a.Motors, store.MotorRun{Position: r.Position, Revolutions: r.Revolutions, RunS: r.RunS,
+			MeanRPM: r.MeanRPM, ThrustMeanN: r.ThrustMeanN, Bins: bins})
+	}
+	// Packs flown together share pack_a in parallel: each carries 1/n of the
+	// charge and energy, and the combined resistance is each pack's over n.
+	n := float64(len(f.Packs))
+	for _, pk := range f.Packs {
+		pf := store.PackFigures{PartID: pk.PartID, ChargeMah: m.ChargeMah / n, EnergyWh: m.EnergyWh / n,
+			MinCellV: m.MinCellV, RestVStart: m.RestVStart, RestVEnd: m.RestVEnd}
+		if m.IRMohm != nil {
+			r := *m.IRMohm * n
+			pf.IRmOhm = &r
+		}
+		a.Packs = append(a.Packs, pf)
+	}
+	for _, e := range m.Events {
+		at := f.TakeoffAt
+		if start != nil {
+			at = start.Add(secs(e.AtS))
+		}
+		ev := &fleet.Event{At: at, Kind: e.Kind, Severity: e.Severity,
+			Detail: fmt.Sprintf("%s (value %.3g, limit %.3g)", e.Detail, e.Value, e.Limit)}
+		if e.Kind != "hard_landing" && len(f.Packs) == 1 {
+			ev.PartID = &f.Packs[0].PartID
+		}
+		a.Events = append(a.Events, ev)
+	}
+	return a, nil
+}
+
+func vibrationTotal(v *telemetry.Vibration) *float64 {
+	if v == nil {
+		return nil
+	}
+	var sum float64
+	var any bool
+	for _, x := range []*float64{v.X, v.Y, v.Z} {
+		if x != nil {
+			sum += *x * *x
+			any = true
+		}
+	}
+	if !any {
+		return nil
+	}
+	r := math.Sqrt(sum)
+	return &r
+}
+
+func packIDs(packs []fleet.FlightPack) []string {
+	ids := make([]string, len(packs))
+	for i, p := range packs {
+		ids[i] = p.PartID
+	}
+	return ids
+}
+
+func secs(s float64) time.Duration { return time.Duration(s * float64(time.Second)) }
+
+func compress(b []byte) ([]byte, error) {
+	var buf bytes.Buffer
+	w, err := gzip.NewWriterLevel(&buf, gzip.BestSpeed)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := w.Write(b); err != nil {
+		return nil, err
+	}
+	if err := w.Close(); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
+
+// Decompress returns a stored log's text.
+func Decompress(gz []byte) ([]byte, error) {
+	r, err := gzip.NewReader(bytes.NewReader(gz))
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	return io.ReadAll(r)
+}
+
+// Reanalyze recomputes every stored log's figures with the current model.
+// progress, when set, is told the count done after each page.
+func (in *Ingester) Reanalyze(ctx context.Context, progress func(done int)) (int, error) {
+	done, after := 0, ""
+	for {
+		logs, err := in.DB.StoredLogs(ctx, after, 100)
+		if err != nil {
+			return done, err
+		}
+		if len(logs) == 0 {
+			return done, nil
+		}
+		for _, s := range logs {
+			if err := in.reanalyseOne(ctx, s); err != nil {
+				return done, fmt.Errorf("flight %s: %w", s.Flight.ID, err)
+			}
+			done++
+		}
+		after = logs[len(logs)-1].Flight.ID
+		if progress != nil {
+			progress(done)
+		}
+	}
+}
+
+func (in *Ingester) reanalyseOne(ctx context.Context, s store.StoredLog) error {
+	raw, err := Decompress(s.RawGz)
+	if err != nil {
+		return err
+	}
+	// Stored logs were accepted once; the limits may have shrunk since, which
+	// must not make history unreadable.
+	log, err := telemetry.Parse(bytes.NewReader(raw), telemetry.Limits{MaxRows: math.MaxInt32, MaxBytes: int64(len(raw)) + 1})
+	if err != nil {
+		return err
+	}
+	facts, err := in.DB.FlightFacts(ctx, s.Flight.AirframeID, packIDs(s.Flight.Packs))
+	if err != nil {
+		return err
+	}
+	a, err := in.analyse(log, s.Flight, facts)
+	if err != nil {
+		return err
+	}
+	return in.DB.ReplaceAnalysis(ctx, s.Flight.ID, a)
+}

@@ -1,0 +1,372 @@
+package store
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// FlightFacts is what the log analysis needs to know about a flight that the
+// log does not carry.
+type FlightFacts struct {
+	Airframe *fleet.Airframe
+	Layout   *fleet.Layout
+	Packs    []*fleet.Part
+}
+
+// FlightFacts loads the airframe, its layout and the packs of a flight.
+func (db *DB) FlightFacts(ctx context.Context, airframeID string, packIDs []string) (*FlightFacts, error) {
+	a, err := db.Airframe(ctx, airframeID)
+	if err != nil {
+		if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
+		}
+		return nil, err
+	}
+	l, err := db.Layout(ctx, a.Layout)
+	if err != nil {
+		return nil, err
+	}
+	ff := &FlightFacts{Airframe: a, Layout: l}
+	for _, id := range packIDs {
+		p, err := db.Part(ctx, id)
+		if err != nil {
+			if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+				return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "packs", Message: "unknown pack " + id}
+			}
+			return nil, err
+		}
+		ff.Packs = append(ff.Packs, p)
+	}
+	return ff, nil
+}
+
+// KeyMetrics are the per-flight figures kept as columns for queries and trends.
+type KeyMetrics struct {
+	RunS, MinCellV, RestVStart, RestVEnd, IRmOhm, HoverRPM, ThrustK *float64
+	EfficiencyIndex, VibrationRMS, LandingG, MaxAltM, DistanceM     *float64
+	ChargeMah, EnergyWh, MeanPowerW, PeakA, MinPackV, AirDensity    float64
+}
+
+// MotorRun is one rotor's figures on a flight.
+type MotorRun struct {
+	Position    string          `json:"position"`
+	Revolutions float64         `json:"revolutions"`
+	RunS        float64         `json:"run_s"`
+	MeanRPM     *float64        `json:"mean_rpm"`
+	ThrustMeanN *float64        `json:"thrust_mean_n"`
+	Bins        json.RawMessage `json:"bins"`
+}
+
+// PackFigures are one pack's share of a logged flight.
+type PackFigures struct {
+	PartID                                 string
+	ChargeMah, EnergyWh                    float64
+	MinCellV, RestVStart, RestVEnd, IRmOhm *float64
+}
+
+// Analysis is everything computed from one log.
+type Analysis struct {
+	Version int
+	Metrics json.RawMessage
+	Key     KeyMetrics
+	Motors  []MotorRun
+	Packs   []PackFigures
+	Events  []*fleet.Event // airframe, part and time set; flight id filled in on write
+}
+
+// LoggedFlight is a flight uploaded with its log.
+type LoggedFlight struct {
+	Flight   *fleet.Flight // Source log, LogSHA256 set
+	RawGz    []byte
+	RawBytes int64
+	Columns  []string
+	Unknown  []string
+	Samples  int
+	Analysis *Analysis
+}
+
+// CreateLoggedFlight writes the flight, packs, compressed log, figures, motor
+// runs and detected events in one transaction. The same log for the same
+// airframe returns the existing flight (created false): uploads for one
+// airframe are serialised by an advisory lock, and the unique key on
+// (airframe, sha256) backs it up.
+func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id string, created bool, err error) {
+	f := lf.Flight
+	if err := f.Validate(); err != nil {
+		return "", false, err
+	}
+	if f.LandingAt.After(db.now().Add(futureSlack)) {
+		return "", false, fleet.FieldError("landing_at", "must not be in the future")
+	}
+	if lf.Columns == nil {
+		lf.Columns = []string{}
+	}
+	if lf.Unknown == nil {
+		lf.Unknown = []string{}
+	}
+	err = db.inTx(ctx, func(tx pgx.Tx) error {
+		if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`, "ingest:"+f.AirframeID); err != nil {
+			return err
+		}
+		err := tx.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, f.AirframeID, f.LogSHA256).Scan(&id)
+		if err == nil {
+			return nil
+		} else if err != pgx.ErrNoRows {
+			return err
+		}
+		out, err := insertFlight(ctx, tx, f)
+		if err != nil {
+			return err
+		}
+		id, created = out.ID, true
+		if _, err := tx.Exec(ctx, `
+			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8)`,
+			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version); err != nil {
+			return err
+		}
+		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
+	})
+	var pe *pgconn.PgError
+	if errors.As(err, &pe) || fleet.ErrorCode(err) == fleet.ECONFLICT {
+		// A racing upload of the same log that slipped past the lock (it cannot
+		// here, but the constraint is the rule): answer with the existing flight.
+		if e := db.pool.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`,
+			f.AirframeID, f.LogSHA256).Scan(&id); e == nil {
+			return id, false, nil
+		}
+	}
+	return id, created, err
+}
+
+// writeAnalysis stores the figures of a flight, replacing earlier ones.
+func writeAnalysis(ctx context.Context, tx pgx.Tx, flightID, airframeID string, a *Analysis) error {
+	k := a.Key
+	if _, err := tx.Exec(ctx, `
+		INSERT INTO flight_metrics (flight_id, run_s, charge_mah, energy_wh, mean_power_w, peak_a, min_pack_v,
+			min_cell_v, rest_v_start, rest_v_end, ir_mohm, hover_rpm, thrust_k, efficiency_index, vibration_rms,
+			landing_g, max_alt_m, distance_m, air_density, metrics)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20)
+		ON CONFLICT (flight_id) DO UPDATE SET run_s = EXCLUDED.run_s, charge_mah = EXCLUDED.charge_mah,
+			energy_wh = EXCLUDED.energy_wh, mean_power_w = EXCLUDED.mean_power_w, peak_a = EXCLUDED.peak_a,
+			min_pack_v = EXCLUDED.min_pack_v, min_cell_v = EXCLUDED.min_cell_v, rest_v_start = EXCLUDED.rest_v_start,
+			rest_v_end = EXCLUDED.rest_v_end, ir_mohm = EXCLUDED.ir_mohm, hover_rpm = EXCLUDED.hover_rpm,
+			thrust_k = EXCLUDED.thrust_k, efficiency_index = EXCLUDED.efficiency_index,
+			vibration_rms = EXCLUDED.vibration_rms, landing_g = EXCLUDED.landing_g, max_alt_m = EXCLUDED.max_alt_m,
+			distance_m = EXCLUDED.distance_m, air_density = EXCLUDED.air_density, metrics = EXCLUDED.metrics`,
+		flightID, k.RunS, k.ChargeMah, k.EnergyWh, k.MeanPowerW, k.PeakA, k.MinPackV, k.MinCellV, k.RestVStart,
+		k.RestVEnd, k.IRmOhm, k.HoverRPM, k.ThrustK, k.EfficiencyIndex, k.VibrationRMS, k.LandingG, k.MaxAltM,
+		k.DistanceM, k.AirDensity, a.Metrics); err != nil {
+		return err
+	}
+	if _, err := tx.Exec(ctx, `DELETE FROM motor_runs WHERE flight_id = $1`, flightID); err != nil {
+		return err
+	}
+	rows := make([][]any, len(a.Motors))
+	for i, m := range a.Motors {
+		rows[i] = []any{flightID, m.Position, m.Revolutions, m.RunS, m.MeanRPM, m.ThrustMeanN, []byte(m.Bins)}
+	}
+	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"motor_runs"},
+		[]string{"flight_id", "position", "revolutions", "run_s", "mean_rpm", "thrust_mean_n", "bins"},
+		pgx.CopyFromRows(rows)); err != nil {
+		return err
+	}
+	for _, p := range a.Packs {
+		if _, err := tx.Exec(ctx, `
+			UPDATE flight_packs SET charge_mah = $3, energy_wh = $4, min_cell_v = $5, rest_v_start = $6,
+				rest_v_end = $7, ir_mohm = $8
+			WHERE flight_id = $1 AND part_id = $2`,
+			flightID, p.PartID, p.ChargeMah, p.EnergyWh, p.MinCellV, p.RestVStart, p.RestVEnd, p.IRmOhm); err != nil {
+			return err
+		}
+	}
+	// Open detected events are the analysis's to replace; resolved ones are
+	// people's records and stay.
+	if _, err := tx.Exec(ctx, `DELETE FROM events WHERE flight_id = $1 AND detected AND resolved_at IS NULL`, flightID); err != nil {
+		return err
+	}
+	for _, e := range a.Events {
+		e.FlightID, e.AirframeID, e.Detected = &flightID, &airframeID, true
+		if e.Severity == "" {
+			e.Severity = fleet.DefaultSeverity(e.Kind)
+		}
+		if _, err := insertEvent(ctx, tx, e); err != nil {
+			return err
+		}
+	}
+	return audit(ctx, tx, "flight_analysis", flightID, nil, map[string]any{"version": a.Version, "events": len(a.Events)})
+}
+
+// ReplaceAnalysis stores a re-analysis of a stored log.
+func (db *DB) ReplaceAnalysis(ctx context.Context, flightID string, a *Analysis) error {
+	return db.inTx(ctx, func(tx pgx.Tx) error {
+		var airframeID string
+		if err := tx.QueryRow(ctx, `SELECT airframe_id FROM flights WHERE id = $1 FOR UPDATE`, flightID).Scan(&airframeID); err != nil {
+			return translateNotFound(err, "flight")
+		}
+		if _, err := tx.Exec(ctx, `UPDATE flight_logs SET analysis_version = $2, analysed_at = now() WHERE flight_id = $1`,
+			flightID, a.Version); err != nil {
+			return err
+		}
+		return writeAnalysis(ctx, tx, flightID, airframeID, a)
+	})
+}
+
+// StoredLog is a raw log with the facts to re-analyse it.
+type StoredLog struct {
+	Flight  *fleet.Flight
+	RawGz   []byte
+	Version int
+}
+
+// StoredLogs returns up to limit stored logs after the flight id (keyset).
+func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]StoredLog, error) {
+	var after *string
+	if afterID != "" {
+		after = &afterID
+	}
+	rows, err := db.pool.Query(ctx, `
+		SELECT `+prefixed("f.", flightCols)+`, l.raw_gz, l.analysis_version
+		FROM flight_logs l JOIN flights f ON f.id = l.flight_id
+		WHERE ($1::uuid IS NULL OR l.flight_id > $1) ORDER BY l.flight_id LIMIT $2`, after, limit)
+	if err != nil {
+		return nil, translate(err)
+	}
+	out, err := collect(rows, func(r pgx.Row) (StoredLog, error) {
+		var s StoredLog
+		var f fleet.Flight
+		err := r.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
+			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.CreatedAt, &s.RawGz, &s.Version)
+		s.Flight = &f
+		return s, err
+	})
+	if err != nil {
+		return nil, err
+	}
+	ids := make([]string, len(out))
+	for i := range out {
+		ids[i] = out[i].Flight.ID
+	}
+	packs, err := db.flightPacks(ctx, ids)
+	if err != nil {
+		return nil, err
+	}
+	for i := range out {
+		out[i].Flight.Packs = packs[out[i].Flight.ID]
+	}
+	return out, nil
+}
+
+// LogInfo describes a flight's stored log.
+type LogInfo struct {
+	SHA256          string    `json:"sha256"`
+	Bytes           int64     `json:"bytes"`
+	Samples         int       `json:"samples"`
+	Columns         []string  `json:"columns"`
+	UnknownColumns  []string  `json:"unknown_columns"`
+	AnalysedAt      time.Time `json:"analysed_at"`
+	AnalysisVersion int       `json:"analysis_version"`
+}
+
+// FlightDetail is a flight with everything computed from its log.
+type FlightDetail struct {
+	*fleet.Flight
+	Log       *LogInfo        `json:"log"`
+	Metrics   json.RawMessage `json:"metrics"`
+	MotorRuns []MotorRun      `json:"motor_runs"`
+	Events    []*fleet.Event  `json:"events"`
+}
+
+// NewFlightDetail is the detail of a flight with no log.
+func NewFlightDetail(f *fleet.Flight) *FlightDetail {
+	return &FlightDetail{Flight: f, Metrics: json.RawMessage("null"), MotorRuns: []MotorRun{}, Events: []*fleet.Event{}}
+}
+
+// FlightDetail returns a flight with its log facts, figures, motor runs and events.
+func (db *DB) FlightDetail(ctx context.Context, id string) (*FlightDetail, error) {
+	f, err := db.Flight(ctx, id)
+	if err != nil {
+		return nil, err
+	}
+	d := NewFlightDetail(f)
+	var li LogInfo
+	err = db.pool.QueryRow(ctx, `
+		SELECT sha256, raw_bytes, samples, columns, unknown_columns, analysed_at, analysis_version
+		FROM flight_logs WHERE flight_id = $1`, id).
+		Scan(&li.SHA256, &li.Bytes, &li.Samples, &li.Columns, &li.UnknownColumns, &li.AnalysedAt, &li.AnalysisVersion)
+	switch {
+	case err == nil:
+		d.Log = &li
+	case err != pgx.ErrNoRows:
+		return nil, translate(err)
+	}
+	if err := db.pool.QueryRow(ctx, `SELECT metrics FROM flight_metrics WHERE flight_id = $1`, id).Scan(&d.Metrics); err != nil && err != pgx.ErrNoRows {
+		return nil, translate(err)
+	}
+	rows, err := db.pool.Query(ctx, `
+		SELECT position, revolutions, run_s, mean_rpm, thrust_mean_n, bins FROM motor_runs
+		WHERE flight_id = $1 ORDER BY position`, id)
+	if err != nil {
+		return nil, translate(err)
+	}
+	runs, err := collect(rows, func(r pgx.Row) (MotorRun, error) {
+		var m MotorRun
+		return m, r.Scan(&m.Position, &m.Revolutions, &m.RunS, &m.MeanRPM, &m.ThrustMeanN, &m.Bins)
+	})
+	if err != nil {
+		return nil, err
+	}
+	if runs != nil {
+		d.MotorRuns = runs
+	}
+	d.Events, _, err = db.Events(ctx, EventFilter{FlightID: id}, Page{Limit: MaxPageSize})
+	if d.Events == nil {
+		d.Events = []*fleet.Event{}
+	}
+	return d, err
+}
+
+// RawLog returns a flight's stored compressed log.
+func (db *DB) RawLog(ctx context.Context, flightID string) ([]byte, error) {
+	var gz []byte
+	err := db.pool.QueryRow(ctx, `SELECT raw_gz FROM flight_logs WHERE flight_id = $1`, flightID).Scan(&gz)
+	if err != nil {
+		return nil, translateNotFound(err, "flight log")
+	}
+	return gz, nil
+}
+
+func prefixed(p, cols string) string {
+	out := []byte{}
+	start := true
+	for i := 0; i < len(cols); i++ {
+		c := cols[i]
+		if start && c != ' ' && c != '\t' && c != '\n' {
+			out = append(out, p...)
+			start = false
+		}
+		out = append(out, c)
+		if c == ',' {
+			start = true
+		}
+	}
+	return string(out)
+}
+
+// FlightIDByLog returns the flight of an airframe recorded from the log with
+// this sha256.
+func (db *DB) FlightIDByLog(ctx context.Context, airframeID, sha string) (string, error) {
+	var id string
+	err := db.pool.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, airframeID, sha).Scan(&id)
+	if err != nil {
+		return "", translateNotFound(err, "flight")
+	}
+	return id, nil
+}
