@@ -230,7 +230,7 @@ func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, start *time.Time) (*store
 			at = start.Add(secs(e.AtS))
 		}
 		ev := &fleet.Event{At: at, Kind: e.Kind, Severity: e.Severity,
-			Detail: fmt.Sprintf("%s (value %.3g, limit %.3g)", e.Detail, e.Value, e.Limit)}
+			Detail: e.Detail}
 		if e.Kind != "hard_landing" && len(f.Packs) == 1 {
 			ev.PartID = &f.Packs[0].PartID
 		}

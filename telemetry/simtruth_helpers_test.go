@@ -24,14 +24,16 @@ const (
 	tolLandingG   = 0.15  // landing load, g
 )
 
-// Tolerances of this test's own choosing for figures the acceptance criteria
-// do not cover: five standard deviations of the simulator's DefaultNoise on
-// the column the extreme is read from (an extreme over many noisy samples sits
-// a few standard deviations out).
+// Tolerances of this test's own choosing for extremes, which the acceptance
+// criteria do not cover: six standard deviations of the simulator's
+// DefaultNoise on the column the extreme is read from. The extreme of N
+// Gaussian samples lies about sqrt(2 ln N) sd out (5 sd for N = 3e5, the
+// most cell samples here); only samples near the true extreme compete, so
+// six leaves room without hiding a real error (a wrong column or scale).
 const (
-	tolPeakA    = 5 * 0.1   // A, DefaultNoise().PackA = 0.1 A
-	tolMinPackV = 5 * 0.01  // V, DefaultNoise().PackV = 0.01 V
-	tolMinCellV = 5 * 0.002 // V, DefaultNoise().CellV = 0.002 V
+	tolPeakA    = 6 * 0.1   // A, DefaultNoise().PackA = 0.1 A
+	tolMinPackV = 6 * 0.01  // V, DefaultNoise().PackV = 0.01 V
+	tolMinCellV = 6 * 0.002 // V, DefaultNoise().CellV = 0.002 V
 )
 
 // airframe builds a flight spec for a seed; the specs differ in size so the

@@ -36,12 +36,29 @@ func NewApp(cfg Config) *App {
 
 // Open starts the embedded database when no URL is configured, connects and
 // migrates.
-func (a *App) Open(ctx context.Context) error {
+func (a *App) Open(ctx context.Context) error { return a.open(ctx, false) }
+
+// openForTool is Open for commands that may run beside a serving instance:
+// they use its embedded cluster when one is running in the home folder.
+func (a *App) openForTool(ctx context.Context) error { return a.open(ctx, true) }
+
+func (a *App) open(ctx context.Context, attach bool) error {
 	url := a.cfg.DatabaseURL
 	if url == "" {
-		a.log.Info("starting embedded PostgreSQL", "home", a.cfg.Home)
-		c, err := pglocal.Start(ctx, pglocal.Options{Dir: a.cfg.Home, Database: "rotorwright",
-			Logf: func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }})
+		opts := pglocal.Options{Dir: a.cfg.Home, Database: "rotorwright",
+			Logf: func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }}
+		var c *pglocal.Cluster
+		var err error
+		if attach {
+			var attached bool
+			c, attached, err = pglocal.StartOrAttach(ctx, opts)
+			if attached {
+				a.log.Info("using the running embedded PostgreSQL", "home", a.cfg.Home)
+			}
+		} else {
+			a.log.Info("starting embedded PostgreSQL", "home", a.cfg.Home)
+			c, err = pglocal.Start(ctx, opts)
+		}
 		if err != nil {
 			return err
 		}
@@ -156,7 +173,7 @@ func cmdMigrate(ctx context.Context, cfg Config, args []string) error {
 	}
 	app := NewApp(cfg)
 	defer app.Close()
-	if err := app.Open(ctx); err != nil {
+	if err := app.openForTool(ctx); err != nil {
 		return err
 	}
 	app.log.Info("schema up to date")
@@ -176,7 +193,7 @@ func cmdKey(ctx context.Context, cfg Config, args []string) error {
 	}
 	app := NewApp(cfg)
 	defer app.Close()
-	if err := app.Open(ctx); err != nil {
+	if err := app.openForTool(ctx); err != nil {
 		return err
 	}
 	ctx = store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})

@@ -17,6 +17,8 @@ Usage:
   rotorwright migrate                          apply database migrations and exit
   rotorwright key create --name N --role R     create an API key; prints the token alone on stdout
       roles: viewer, pilot, technician, admin
+  rotorwright import DIR --airframe CODE       ingest every *.csv flight log in DIR, with a summary
+  rotorwright reanalyze                        recompute every stored log's figures with the current model
 
 Environment: DATABASE_URL, ROTORWRIGHT_HOME (default ./.rotorwright), ROTORWRIGHT_ADDR
 (default 127.0.0.1:8080), ROTORWRIGHT_LOG_LEVEL (debug, info, warn, error).
@@ -50,6 +52,10 @@ func run(ctx context.Context, args []string) error {
 		return cmdMigrate(ctx, cfg, args[1:])
 	case "key":
 		return cmdKey(ctx, cfg, args[1:])
+	case "import":
+		return cmdImport(ctx, cfg, args[1:])
+	case "reanalyze":
+		return cmdReanalyze(ctx, cfg, args[1:])
 	case "help", "-h", "--help":
 		fmt.Print(usage)
 		return nil

@@ -8,6 +8,7 @@ import (
 	"net/http"
 	"os"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -156,10 +157,13 @@ func TestKeyCreatePrintsTokenOnly(t *testing.T) {
 	}
 }
 
-// captureStdout runs fn with os.Stdout redirected; no other test of this
-// package writes to stdout, so running in parallel is safe.
+// captureStdout runs fn with os.Stdout redirected, one test at a time.
+var stdoutMu sync.Mutex
+
 func captureStdout(t *testing.T, fn func()) string {
 	t.Helper()
+	stdoutMu.Lock()
+	defer stdoutMu.Unlock()
 	r, w, err := os.Pipe()
 	if err != nil {
 		t.Fatal(err)

@@ -3,13 +3,18 @@
 package demo
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
+	"runtime"
 	"sort"
+	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/sim"
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -40,7 +45,8 @@ func Loaded(ctx context.Context, db *store.DB, sc *sim.Scenario) (bool, error) {
 }
 
 // Load writes the scenario: airframes, parts, fits and removals in time
-// order, jobs, flights with their packs, and the recorded events.
+// order, jobs, every flight by ingesting its simulated log, and the recorded
+// events.
 func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress) (Summary, error) {
 	start := time.Now()
 	if progress == nil {
@@ -184,27 +190,75 @@ func (l *loader) loadJobs(sc *sim.Scenario) error {
 	return nil
 }
 
+// loadFlights simulates each flight's log and ingests it through the same
+// code path as an upload. Flights are independent records (their overlaps
+// are ruled out by the scenario and checked by the database), so several
+// are simulated and ingested at once.
 func (l *loader) loadFlights(sc *sim.Scenario, progress Progress) error {
-	for i, f := range sc.Flights {
-		fl := &fleet.Flight{AirframeID: l.airframes[f.Airframe], Pilot: f.Pilot, TakeoffAt: f.TakeoffAt,
-			LandingAt: f.LandingAt, TakeoffMassG: ptr(f.TakeoffMassG), SiteElevationM: ptr(f.Spec.SiteElevationM)}
-		if id, ok := l.jobs[f.Job]; ok {
-			fl.JobID = &id
-		}
-		for _, s := range f.Packs {
-			fl.Packs = append(fl.Packs, fleet.FlightPack{PartID: l.parts[s]})
-		}
-		out, err := l.db.CreateFlight(l.ctx, fl)
-		if err != nil {
-			return fmt.Errorf("flight %d of %s at %s: %w", i, f.Airframe, f.TakeoffAt.Format(time.RFC3339), err)
-		}
-		l.flights = append(l.flights, out.ID)
-		l.sum.Flights++
-		if (i+1)%250 == 0 || i+1 == len(sc.Flights) {
-			progress("demo: %d/%d flights", i+1, len(sc.Flights))
+	in := &ingest.Ingester{DB: l.db}
+	l.flights = make([]string, len(sc.Flights))
+	work := make(chan int)
+	errc := make(chan error, 1)
+	var done atomic.Int64
+	var wg sync.WaitGroup
+	ctx, cancel := context.WithCancel(l.ctx)
+	defer cancel()
+	for w := 0; w < max(2, runtime.GOMAXPROCS(0)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range work {
+				id, err := l.ingestFlight(ctx, in, sc.Flights[i])
+				if err != nil {
+					select {
+					case errc <- fmt.Errorf("flight %d of %s at %s: %w", i, sc.Flights[i].Airframe,
+						sc.Flights[i].TakeoffAt.Format(time.RFC3339), err):
+					default:
+					}
+					cancel()
+					return
+				}
+				l.flights[i] = id
+				if n := done.Add(1); n%100 == 0 || int(n) == len(sc.Flights) {
+					progress("demo: %d/%d flights simulated and ingested", n, len(sc.Flights))
+				}
+			}
+		}()
+	}
+feed:
+	for i := range sc.Flights {
+		select {
+		case work <- i:
+		case <-ctx.Done():
+			break feed
 		}
 	}
-	return nil
+	close(work)
+	wg.Wait()
+	select {
+	case err := <-errc:
+		return err
+	default:
+	}
+	l.sum.Flights = int(done.Load())
+	return ctx.Err()
+}
+
+func (l *loader) ingestFlight(ctx context.Context, in *ingest.Ingester, f sim.Flight) (string, error) {
+	var buf bytes.Buffer
+	if _, err := sim.Generate(f.Spec, &buf); err != nil {
+		return "", err
+	}
+	fl := fleet.Flight{AirframeID: l.airframes[f.Airframe], Pilot: f.Pilot, TakeoffAt: f.TakeoffAt,
+		LandingAt: f.LandingAt, TakeoffMassG: ptr(f.TakeoffMassG), SiteElevationM: ptr(f.Spec.SiteElevationM)}
+	if id, ok := l.jobs[f.Job]; ok {
+		fl.JobID = &id
+	}
+	for i, s := range f.Packs {
+		fl.Packs = append(fl.Packs, fleet.FlightPack{PartID: l.parts[s], Slot: i + 1})
+	}
+	res, err := in.Ingest(ctx, ingest.Request{Flight: fl, Log: buf.Bytes()})
+	return res.FlightID, err
 }
 
 func (l *loader) loadEvents(sc *sim.Scenario) error {

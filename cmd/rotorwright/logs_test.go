@@ -1,0 +1,92 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/pgtest"
+	"github.com/rotorwright/rotorwright/internal/sim"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// import: new logs are imported, a copy is already present, a bad file is
+// refused with its line and column; reanalyze recomputes stored figures.
+func TestImportAndReanalyze(t *testing.T) {
+	t.Parallel()
+	url := pgtest.NewDB(t)
+	ctx := context.Background()
+	db, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	dim := 254.0
+	empty := 1000.0
+	if _, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: "SIM-01", Layout: "quad-x", CellsS: 4, PacksPerFlight: 1,
+		RotorDiameterMM: &dim, EmptyMassG: &empty}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.CreatePart(ctx, &fleet.Part{Kind: fleet.KindPack, Serial: "SIM-P1",
+		Specs: []byte(`{"chemistry":"lipo","cells_s":4,"cells_p":1,"rated_mah":8000}`)}); err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	start := time.Now().Add(-10 * time.Hour).UTC().Truncate(time.Second)
+	var first []byte
+	for i := 0; i < 2; i++ {
+		spec := sim.DefaultSpec(uint64(100 + i))
+		spec.Start, spec.DurationS = start.Add(time.Duration(i)*time.Hour), 120
+		var buf bytes.Buffer
+		if _, err := sim.Generate(spec, &buf); err != nil {
+			t.Fatal(err)
+		}
+		if i == 0 {
+			first = buf.Bytes()
+		}
+		os.WriteFile(filepath.Join(dir, "flight-"+string(rune('a'+i))+".csv"), buf.Bytes(), 0o644)
+	}
+	os.WriteFile(filepath.Join(dir, "flight-c-copy.csv"), first, 0o644)
+	os.WriteFile(filepath.Join(dir, "flight-d-bad.csv"), []byte("t_s,pack_v,pack_a\n0,16.8,0.5\n0.5,16.7,x\n"), 0o644)
+
+	var runErr error
+	out := captureStdout(t, func() {
+		runErr = run(ctx, []string{"import", dir, "--airframe", "SIM-01", "--database-url", url})
+	})
+	if runErr == nil || !strings.Contains(runErr.Error(), "1 of 4 logs refused") {
+		t.Fatalf("import error %v, want 1 of 4 refused", runErr)
+	}
+	if !strings.Contains(out, "2 imported, 1 already present, 1 refused") ||
+		!strings.Contains(out, "flight-d-bad.csv: line 3, column pack_a") {
+		t.Fatalf("summary:\n%s", out)
+	}
+
+	// Spoil a stored figure, then reanalyze puts back what the log says.
+	var id string
+	var want float64
+	if err := db.Pool().QueryRow(ctx, `SELECT flight_id, charge_mah FROM flight_metrics ORDER BY flight_id LIMIT 1`).Scan(&id, &want); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.Pool().Exec(ctx, `UPDATE flight_metrics SET charge_mah = 1, metrics = '{}' WHERE flight_id = $1`, id); err != nil {
+		t.Fatal(err)
+	}
+	out = captureStdout(t, func() {
+		runErr = run(ctx, []string{"reanalyze", "--database-url", url})
+	})
+	if runErr != nil || !strings.Contains(out, "reanalysed 2 stored logs") {
+		t.Fatalf("reanalyze: %v\n%s", runErr, out)
+	}
+	var got float64
+	if err := db.Pool().QueryRow(ctx, `SELECT charge_mah FROM flight_metrics WHERE flight_id = $1`, id).Scan(&got); err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(got-want) > 1e-9 {
+		t.Fatalf("after reanalyze charge %v, want %v", got, want)
+	}
+}
