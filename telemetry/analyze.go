@@ -130,8 +130,11 @@ type Metrics struct {
 	RestVEnd   *float64 `json:"rest_v_end"`
 	// IRMohm is the pack DC resistance, the median of step estimates -dV/dI.
 	IRMohm      *float64   `json:"ir_mohm"`
-	IRCellMohm  *float64   `json:"ir_cell_mohm"`  // IRMohm / cells_s
-	IRCellsMohm []*float64 `json:"ir_cells_mohm"` // per cell column
+	// IRCellMohm is IRMohm / cells_s, and IRCellsMohm is per cell column. With
+	// packs in parallel both are bus figures: the cell columns belong to one
+	// pack but the current is the bus's, so they read low by that pack's share.
+	IRCellMohm  *float64   `json:"ir_cell_mohm"`
+	IRCellsMohm []*float64 `json:"ir_cells_mohm"`
 	IRSteps     int        `json:"ir_steps"`
 
 	HoverRPM *float64 `json:"hover_rpm"` // mean rotor rpm over the airborne span
