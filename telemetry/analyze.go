@@ -129,7 +129,7 @@ type Metrics struct {
 	RestVStart *float64 `json:"rest_v_start"`
 	RestVEnd   *float64 `json:"rest_v_end"`
 	// IRMohm is the pack DC resistance, the median of step estimates -dV/dI.
-	IRMohm      *float64   `json:"ir_mohm"`
+	IRMohm *float64 `json:"ir_mohm"`
 	// IRCellMohm is IRMohm / cells_s, and IRCellsMohm is per cell column. With
 	// packs in parallel both are bus figures: the cell columns belong to one
 	// pack but the current is the bus's, so they read low by that pack's share.
