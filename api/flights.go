@@ -161,6 +161,9 @@ func (s *Server) uploadFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	if res.HealthErr != nil {
+		s.log.Error("health refresh after ingest", "flight", res.FlightID, "err", res.HealthErr)
+	}
 	d, err := s.db.FlightDetail(c.Request.Context(), res.FlightID)
 	if err != nil {
 		s.fail(c, err)

@@ -13,6 +13,7 @@ import (
 	"github.com/gin-gonic/gin"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/openapi"
 	"github.com/rotorwright/rotorwright/store"
@@ -35,6 +36,7 @@ type Server struct {
 	log    *slog.Logger
 	limits Limits
 	ingest *ingest.Ingester
+	health *health.Service
 	engine *gin.Engine
 }
 
@@ -65,12 +67,16 @@ var Routes = []Route{
 	{Method: "GET", Path: "/v1/airframes/:id/fitment", Role: fleet.RoleViewer, handler: (*Server).getFitment},
 	{Method: "POST", Path: "/v1/airframes/:id/fits", Role: fleet.RoleTechnician, handler: (*Server).createFit},
 	{Method: "POST", Path: "/v1/airframes/:id/removals", Role: fleet.RoleTechnician, handler: (*Server).createRemoval},
+	{Method: "GET", Path: "/v1/airframes/:id/trends", Role: fleet.RoleViewer, handler: (*Server).airframeTrends},
 
 	{Method: "GET", Path: "/v1/parts", Role: fleet.RoleViewer, handler: (*Server).listParts},
 	{Method: "POST", Path: "/v1/parts", Role: fleet.RoleTechnician, handler: (*Server).createPart},
 	{Method: "GET", Path: "/v1/parts/:id", Role: fleet.RoleViewer, handler: (*Server).getPart},
 	{Method: "PATCH", Path: "/v1/parts/:id", Role: fleet.RoleTechnician, handler: (*Server).patchPart},
 	{Method: "GET", Path: "/v1/parts/:id/history", Role: fleet.RoleViewer, handler: (*Server).partHistory},
+	{Method: "GET", Path: "/v1/parts/:id/health", Role: fleet.RoleViewer, handler: (*Server).partHealth},
+	{Method: "GET", Path: "/v1/parts/:id/checks", Role: fleet.RoleViewer, handler: (*Server).listPackChecks},
+	{Method: "POST", Path: "/v1/parts/:id/checks", Role: fleet.RolePilot, handler: (*Server).createPackCheck},
 
 	{Method: "GET", Path: "/v1/jobs", Role: fleet.RoleViewer, handler: (*Server).listJobs},
 	{Method: "POST", Path: "/v1/jobs", Role: fleet.RoleTechnician, handler: (*Server).createJob},
@@ -108,8 +114,9 @@ func New(db *store.DB, log *slog.Logger, limits Limits) *Server {
 	if limits.LogRows == 0 {
 		limits.LogRows = DefaultLimits.LogRows
 	}
-	s := &Server{db: db, log: log, limits: limits,
-		ingest: &ingest.Ingester{DB: db, Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes}}}
+	hs := health.New(db)
+	s := &Server{db: db, log: log, limits: limits, health: hs,
+		ingest: &ingest.Ingester{DB: db, Health: hs, Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes}}}
 	gin.SetMode(gin.ReleaseMode)
 	e := gin.New()
 	e.HandleMethodNotAllowed = true

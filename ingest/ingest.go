@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/store"
 	"github.com/rotorwright/rotorwright/telemetry"
 )
@@ -28,6 +29,8 @@ const AnalysisVersion = 1
 type Ingester struct {
 	DB     *store.DB
 	Limits telemetry.Limits
+	// Health, when set, refreshes the health of what a new flight touched.
+	Health *health.Service
 	// HardLandingG overrides the analysis's hard-landing threshold (0: default).
 	HardLandingG float64
 }
@@ -44,6 +47,8 @@ type Result struct {
 	FlightID string
 	Created  bool
 	Unknown  []string // columns the parser ignored
+	// HealthErr is a failed health refresh after the flight was recorded.
+	HealthErr error
 }
 
 // Ingest parses, analyses and stores one log. The same log for the same
@@ -79,7 +84,16 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	}
 	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz,
 		RawBytes: int64(len(req.Log)), Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Analysis: a})
-	return Result{FlightID: id, Created: created, Unknown: log.Unknown}, err
+	if err != nil {
+		return Result{}, err
+	}
+	res := Result{FlightID: id, Created: created, Unknown: log.Unknown}
+	if created && in.Health != nil {
+		// The flight is recorded; a failed refresh is repaired by the next
+		// refresh or a fleet recompute, so it does not fail the upload.
+		res.HealthErr = in.Health.Refresh(ctx, id)
+	}
+	return res, nil
 }
 
 // resolve fills the airframe and packs from the log's metadata when the

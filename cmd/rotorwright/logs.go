@@ -14,6 +14,7 @@ import (
 	"github.com/schollz/progressbar/v3"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -59,7 +60,7 @@ func cmdImport(ctx context.Context, cfg Config, args []string) error {
 		return fmt.Errorf("airframe %s: %s", *code, fleet.ErrorMessage(err))
 	}
 	ctx = store.WithActor(ctx, store.Actor{Name: "import", Method: "CLI", Route: "import"})
-	in := &ingest.Ingester{DB: app.DB}
+	in := &ingest.Ingester{DB: app.DB, Health: health.New(app.DB)}
 	bar := progressbar.NewOptions(len(files), progressbar.OptionSetWriter(os.Stderr),
 		progressbar.OptionSetDescription("importing "+*code), progressbar.OptionShowCount(),
 		progressbar.OptionSetPredictTime(true), progressbar.OptionClearOnFinish())
@@ -135,5 +136,36 @@ func cmdReanalyze(ctx context.Context, cfg Config, args []string) error {
 	}
 	fmt.Printf("reanalysed %d stored logs with analysis version %d in %s\n", n, ingest.AnalysisVersion,
 		time.Since(start).Round(time.Millisecond))
+	// Health views rest on the figures just replaced.
+	m, err := health.New(app.DB).Recompute(ctx, nil)
+	if err != nil {
+		return err
+	}
+	fmt.Printf("recomputed health of %d parts and airframes\n", m)
+	return nil
+}
+
+// cmdRecompute recomputes the health of every motor, propeller and pack and
+// every airframe's trends.
+func cmdRecompute(ctx context.Context, cfg Config, args []string) error {
+	fs := flag.NewFlagSet("recompute", flag.ContinueOnError)
+	cfg.flags(fs)
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	app := NewApp(cfg)
+	defer app.Close()
+	if err := app.openForTool(ctx); err != nil {
+		return err
+	}
+	start := time.Now()
+	n, err := health.New(app.DB).Recompute(ctx, func(done, total int) {
+		fmt.Fprintf(os.Stderr, "\rrecomputed %d/%d", done, total)
+	})
+	fmt.Fprintln(os.Stderr)
+	if err != nil {
+		return err
+	}
+	fmt.Printf("recomputed health of %d parts and airframes in %s\n", n, time.Since(start).Round(time.Millisecond))
 	return nil
 }

@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/sim"
 	"github.com/rotorwright/rotorwright/store"
@@ -64,7 +65,13 @@ func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress
 		{"jobs", l.loadJobs},
 		{"flights", func(sc *sim.Scenario) error { return l.loadFlights(sc, progress) }},
 		{"events", l.loadEvents},
+		{"pack checks", l.loadPackChecks},
 		{"part statuses", l.loadStatuses},
+		{"health", func(*sim.Scenario) error {
+			n, err := health.New(l.db).Recompute(l.ctx, nil)
+			progress("demo: health computed for %d parts and airframes", n)
+			return err
+		}},
 	}
 	for _, s := range steps {
 		if err := s.fn(sc); err != nil {
@@ -124,8 +131,10 @@ func specsOf(p sim.Part) (json.RawMessage, error) {
 		m := p.Motor
 		s := fleet.MotorSpecs{KV: ptr(m.KV), Rotation: fleet.Rotation(m.Rotation)}
 		if m.BearingCount > 0 {
-			s.Bearing = &fleet.BearingSpecs{Count: m.BearingCount, DynamicRatingN: ptr(m.BearingDynamicRatingN),
-				LifeFactor: ptr(m.BearingLifeFactor)}
+			// Motor makers rarely publish their bearings' ratings: the demo's
+			// motors leave them out, so their wear is weighed against the rated
+			// interval at the model's typical duty (relative mode).
+			s.Bearing = &fleet.BearingSpecs{Count: m.BearingCount}
 		}
 		v = s
 	case p.Propeller != nil:
@@ -277,6 +286,21 @@ func (l *loader) loadEvents(sc *sim.Scenario) error {
 			return fmt.Errorf("%s event: %w", e.Kind, err)
 		}
 		l.sum.Events++
+	}
+	return nil
+}
+
+func (l *loader) loadPackChecks(sc *sim.Scenario) error {
+	for _, c := range sc.PackChecks {
+		pc := &store.PackCheck{PartID: l.parts[c.Serial], At: c.At, Kind: c.Kind, MahIn: ptr(c.MahIn),
+			RestVAfter: ptr(c.RestV), CellV: c.CellV, CellIRmOhm: c.CellIRmOhm}
+		if c.Kind == "capacity_test" {
+			// The scenario's acceptance test: discharged from full to cut-off.
+			pc.MahIn, pc.MahOut, pc.RestVBefore, pc.RestVAfter = nil, ptr(c.MahIn), ptr(c.RestV), nil
+		}
+		if _, err := l.db.CreatePackCheck(l.ctx, pc); err != nil {
+			return fmt.Errorf("%s check: %w", c.Serial, err)
+		}
 	}
 	return nil
 }

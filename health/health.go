@@ -1,0 +1,161 @@
+// Package health turns what each part went through into its health view:
+// motor bearing life, pack health and fade forecast, propeller life and
+// airframe trends. It loads from the store, computes with wear, and stores
+// the views so reads are cheap; Refresh runs after each ingest and Recompute
+// for the whole fleet.
+package health
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// Settings are the fleet-wide model settings.
+type Settings struct {
+	// UtilisationWindow is the trailing window for usage rates (default 30 days).
+	UtilisationWindow time.Duration
+	// RatedBearingHours is the relative-mode bearing interval when neither a
+	// bearing rating nor a service rule gives one: a manufacturer-style
+	// placeholder (no published hour-based bearing interval exists; set it
+	// per motor model from the maker's data).
+	RatedBearingHours float64
+	// BalanceGrade is the ISO 21940-11 grade of the rotors, mm/s (G 6.3
+	// default, common practice for small rotors).
+	BalanceGrade float64
+	// TrendFlights is how many recent flights an airframe trend looks at,
+	// TrendLimitPct the rise that flags it.
+	TrendFlights  int
+	TrendLimitPct float64
+	// EOLFraction is the end-of-life state of health (default 0.8).
+	EOLFraction float64
+}
+
+// DefaultSettings are the defaults above.
+func DefaultSettings() Settings {
+	return Settings{UtilisationWindow: 30 * 24 * time.Hour, RatedBearingHours: 500, BalanceGrade: 6.3,
+		TrendFlights: 20, TrendLimitPct: 10, EOLFraction: 0.8}
+}
+
+// Service computes and stores health views.
+type Service struct {
+	DB       *store.DB
+	Settings Settings
+	Now      func() time.Time
+}
+
+// New returns a service with the default settings and the wall clock.
+func New(db *store.DB) *Service {
+	return &Service{DB: db, Settings: DefaultSettings(), Now: time.Now}
+}
+
+// View is a part's health view as served.
+type View struct {
+	PartID     string         `json:"part_id"`
+	Kind       fleet.PartKind `json:"kind"`
+	Serial     string         `json:"serial"`
+	ComputedAt time.Time      `json:"computed_at"`
+	Status     string         `json:"status"`
+	Motor      *MotorView     `json:"motor,omitempty"`
+	Pack       *PackView      `json:"pack,omitempty"`
+	Propeller  *PropView      `json:"propeller,omitempty"`
+	Notes      []string       `json:"notes"`
+}
+
+// Part computes a part's health view now and stores it.
+func (s *Service) Part(ctx context.Context, partID string) (*View, error) {
+	p, err := s.DB.Part(ctx, partID)
+	if err != nil {
+		return nil, err
+	}
+	now := s.Now().UTC()
+	v := &View{PartID: p.ID, Kind: p.Kind, Serial: p.Serial, ComputedAt: now, Notes: []string{}}
+	switch p.Kind {
+	case fleet.KindMotor:
+		err = s.motor(ctx, p, now, v)
+	case fleet.KindPack:
+		err = s.pack(ctx, p, now, v)
+	case fleet.KindPropeller:
+		err = s.propeller(ctx, p, now, v)
+	default:
+		return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "id",
+			Message: fmt.Sprintf("health is computed for motors, packs and propellers, not a %s", p.Kind)}
+	}
+	if err != nil {
+		return nil, err
+	}
+	return v, s.DB.SavePartHealth(ctx, p.ID, v.Status, v, now)
+}
+
+// Stored returns the stored view, computing it when there is none.
+func (s *Service) Stored(ctx context.Context, partID string) (json.RawMessage, error) {
+	raw, err := s.DB.PartHealth(ctx, partID)
+	if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+		v, err := s.Part(ctx, partID)
+		if err != nil {
+			return nil, err
+		}
+		return json.Marshal(v)
+	}
+	return raw, err
+}
+
+// Refresh recomputes the health of everything a flight touched: its motors,
+// propellers and packs, and its airframe's trends.
+func (s *Service) Refresh(ctx context.Context, flightID string) error {
+	f, err := s.DB.Flight(ctx, flightID)
+	if err != nil {
+		return err
+	}
+	parts, err := s.DB.FlightParts(ctx, flightID)
+	if err != nil {
+		return err
+	}
+	for _, id := range parts {
+		if _, err := s.Part(ctx, id); err != nil {
+			return fmt.Errorf("part %s: %w", id, err)
+		}
+	}
+	_, err = s.Airframe(ctx, f.AirframeID)
+	return err
+}
+
+// Recompute recomputes every motor, propeller and pack and every airframe's
+// trends; progress, when set, hears the count done.
+func (s *Service) Recompute(ctx context.Context, progress func(done, total int)) (int, error) {
+	parts, err := s.DB.HealthParts(ctx)
+	if err != nil {
+		return 0, err
+	}
+	airframes, err := s.DB.AirframeIDs(ctx)
+	if err != nil {
+		return 0, err
+	}
+	total := len(parts) + len(airframes)
+	done := 0
+	for _, id := range parts {
+		if _, err := s.Part(ctx, id); err != nil {
+			return done, fmt.Errorf("part %s: %w", id, err)
+		}
+		done++
+		if progress != nil && done%50 == 0 {
+			progress(done, total)
+		}
+	}
+	for _, id := range airframes {
+		if _, err := s.Airframe(ctx, id); err != nil {
+			return done, fmt.Errorf("airframe %s: %w", id, err)
+		}
+		done++
+	}
+	if progress != nil {
+		progress(done, total)
+	}
+	return done, nil
+}
+
+func ptr(v float64) *float64 { return &v }

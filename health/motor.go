@@ -1,0 +1,170 @@
+package health
+
+import (
+	"context"
+	"encoding/json"
+	"sort"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/wear"
+)
+
+// MotorView is a motor's bearing health.
+type MotorView struct {
+	Mode                   string          `json:"mode"` // absolute (bearing rating known) or relative (rated interval)
+	ConsumedFraction       float64         `json:"consumed_fraction"`
+	RunHours               float64         `json:"run_hours"`
+	Flights                int             `json:"flights"`
+	RemainingEquivHours    *float64        `json:"remaining_equiv_hours"` // run hours left at recent duty
+	UtilisationHoursPerDay float64         `json:"utilisation_hours_per_day"`
+	ForecastDate           *time.Time      `json:"forecast_date"`
+	Since                  *time.Time      `json:"since"` // counting from (first fit)
+	Model                  BearingSettings `json:"model"`
+	Series                 []SeriesPoint   `json:"series"` // cumulative consumed fraction per flight
+}
+
+// BearingSettings are the bearing model settings used.
+type BearingSettings struct {
+	DynamicRatingN *float64 `json:"dynamic_rating_n"`
+	StaticRatingN  *float64 `json:"static_rating_n"`
+	Count          int      `json:"count"`
+	LifeFactor     float64  `json:"life_factor"`
+	BalanceGrade   float64  `json:"balance_grade_mm_s"`
+	RotorMassKg    float64  `json:"rotor_mass_kg"`
+	RatedHours     *float64 `json:"rated_hours"`
+	ReferenceRPM   *float64 `json:"reference_rpm"`
+	ReferenceN     *float64 `json:"reference_thrust_n"`
+}
+
+// SeriesPoint is one value of a plotted series.
+type SeriesPoint struct {
+	At    time.Time `json:"at"`
+	Value float64   `json:"value"`
+}
+
+type rpmBin struct {
+	RPMLo       float64  `json:"rpm_lo"`
+	RPMHi       float64  `json:"rpm_hi"`
+	Seconds     float64  `json:"seconds"`
+	Revolutions float64  `json:"revolutions"`
+	MeanThrustN *float64 `json:"mean_thrust_n"`
+}
+
+func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *View) error {
+	var specs fleet.MotorSpecs
+	if err := json.Unmarshal(p.Specs, &specs); err != nil {
+		return err
+	}
+	since, err := s.DB.FirstFitted(ctx, p.ID)
+	if err != nil {
+		return err
+	}
+	runs, err := s.DB.RotorRuns(ctx, p.ID, since)
+	if err != nil {
+		return err
+	}
+	m := wear.BearingModel{BalanceGrade_mm_s: s.Settings.BalanceGrade}
+	set := BearingSettings{BalanceGrade: m.BalanceGrade_mm_s, LifeFactor: 1, Count: 2}
+	if b := specs.Bearing; b != nil {
+		m.Count, set.Count = b.Count, b.Count
+		if b.DynamicRatingN != nil {
+			m.C_N, set.DynamicRatingN = *b.DynamicRatingN, b.DynamicRatingN
+		}
+		if b.StaticRatingN != nil {
+			m.C0_N, set.StaticRatingN = *b.StaticRatingN, b.StaticRatingN
+		}
+		if b.LifeFactor != nil {
+			m.AISO, set.LifeFactor = *b.LifeFactor, *b.LifeFactor
+		}
+	}
+	var flights []wear.MotorFlight
+	var rpms, thrusts []float64
+	skipped := 0
+	for _, r := range runs {
+		var bins []rpmBin
+		if err := json.Unmarshal(r.Bins, &bins); err != nil {
+			return err
+		}
+		mf := wear.MotorFlight{At: r.TakeoffAt}
+		ok := true
+		for _, b := range bins {
+			if b.MeanThrustN == nil {
+				ok = false // thrust needs the take-off mass; without it the load is unknown
+				break
+			}
+			mf.Bins = append(mf.Bins, wear.SpectrumBin{RPM: (b.RPMLo + b.RPMHi) / 2, Seconds: b.Seconds,
+				Revolutions: b.Revolutions, ThrustN: *b.MeanThrustN})
+		}
+		if !ok {
+			skipped++
+			continue
+		}
+		flights = append(flights, mf)
+		if r.MeanRPM != nil && r.ThrustMeanN != nil {
+			rpms, thrusts = append(rpms, *r.MeanRPM), append(thrusts, *r.ThrustMeanN)
+		}
+	}
+	if skipped > 0 {
+		v.Notes = append(v.Notes, "flights without a known take-off mass have no thrust figures and are not counted in bearing wear")
+	}
+	if m.C_N == 0 {
+		// Relative mode: the interval holds at the model's typical duty, the
+		// median over every motor of this part number (else this motor's own),
+		// so a motor worked harder than its kind uses its life faster.
+		refRPM, refN, ok := 0.0, 0.0, false
+		if p.PartNumber != "" {
+			if refRPM, refN, ok, err = s.DB.ModelDuty(ctx, p.PartNumber); err != nil {
+				return err
+			}
+		}
+		if !ok && len(rpms) > 0 {
+			refRPM, refN, ok = median(rpms), median(thrusts), true
+		}
+		if !ok {
+			v.Status = "unknown"
+			v.Notes = append(v.Notes, "no logged flights with rotor speed and thrust yet: bearing wear cannot be estimated")
+			v.Motor = &MotorView{Mode: m.Mode(), Model: set, Series: []SeriesPoint{}}
+			return nil
+		}
+		m.Rated = wear.RatedInterval{Hours: s.Settings.RatedBearingHours, RPM: refRPM, ThrustN: refN}
+		set.RatedHours, set.ReferenceRPM, set.ReferenceN = ptr(m.Rated.Hours), ptr(m.Rated.RPM), ptr(m.Rated.ThrustN)
+		v.Notes = append(v.Notes, "relative mode: no bearing rating in the motor's specs; the interval is a placeholder setting, replace it with the maker's figure")
+	}
+	st, err := m.Status(flights, now, s.Settings.UtilisationWindow)
+	if err != nil {
+		return err
+	}
+	mv := &MotorView{Mode: st.Mode, ConsumedFraction: st.ConsumedFraction, RunHours: st.RunHours, Flights: len(flights),
+		UtilisationHoursPerDay: st.UtilisationHoursPerDay, ForecastDate: st.ForecastDate, Model: set,
+		Series: make([]SeriesPoint, len(st.Series))}
+	if !since.IsZero() {
+		mv.Since = &since
+	}
+	if st.RateKnown {
+		mv.RemainingEquivHours = ptr(st.RemainingEquivHours)
+	}
+	for i, pt := range st.Series {
+		mv.Series[i] = SeriesPoint{At: pt.At, Value: pt.Consumed}
+	}
+	v.Motor = mv
+	switch {
+	case st.ConsumedFraction >= 1:
+		v.Status = "replace"
+	case st.ConsumedFraction >= 0.9:
+		v.Status = "watch"
+	default:
+		v.Status = "serviceable"
+	}
+	return nil
+}
+
+func median(x []float64) float64 {
+	s := append([]float64(nil), x...)
+	sort.Float64s(s)
+	n := len(s)
+	if n%2 == 1 {
+		return s[n/2]
+	}
+	return (s[n/2-1] + s[n/2]) / 2
+}

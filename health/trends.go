@@ -1,0 +1,73 @@
+package health
+
+import (
+	"context"
+	"time"
+
+	"github.com/rotorwright/rotorwright/store"
+	"github.com/rotorwright/rotorwright/wear"
+)
+
+// TrendsView is an airframe's efficiency and vibration trends over its
+// recent logged flights.
+type TrendsView struct {
+	AirframeID      string             `json:"airframe_id"`
+	ComputedAt      time.Time          `json:"computed_at"`
+	Flights         int                `json:"flights"`
+	LimitPct        float64            `json:"limit_pct"`
+	EfficiencyIndex *TrendView         `json:"efficiency_index"`
+	Vibration       *TrendView         `json:"vibration_rms"`
+	Flagged         bool               `json:"flagged"`
+	Series          []store.TrendPoint `json:"series"`
+}
+
+// TrendView is one robust (Theil-Sen) trend.
+type TrendView struct {
+	N              int     `json:"n"`
+	Slope          float64 `json:"slope_per_flight"`
+	BaselineMedian float64 `json:"baseline_median"`
+	RisePct        float64 `json:"rise_pct"`
+	Flag           bool    `json:"flag"`
+}
+
+// Airframe computes and stores an airframe's trends.
+func (s *Service) Airframe(ctx context.Context, airframeID string) (*TrendsView, error) {
+	pts, err := s.DB.AirframeTrendPoints(ctx, airframeID, s.Settings.TrendFlights)
+	if err != nil {
+		return nil, err
+	}
+	now := s.Now().UTC()
+	tv := &TrendsView{AirframeID: airframeID, ComputedAt: now, Flights: len(pts), LimitPct: s.Settings.TrendLimitPct,
+		Series: pts}
+	if tv.Series == nil {
+		tv.Series = []store.TrendPoint{}
+	}
+	var eff, vib []float64
+	for _, p := range pts {
+		if p.EfficiencyIndex != nil {
+			eff = append(eff, *p.EfficiencyIndex)
+		}
+		if p.VibrationRMS != nil {
+			vib = append(vib, *p.VibrationRMS)
+		}
+	}
+	tv.EfficiencyIndex = s.trend(eff)
+	tv.Vibration = s.trend(vib)
+	tv.Flagged = (tv.EfficiencyIndex != nil && tv.EfficiencyIndex.Flag) || (tv.Vibration != nil && tv.Vibration.Flag)
+	return tv, s.DB.SaveAirframeTrends(ctx, airframeID, tv.Flagged, tv, now)
+}
+
+// minTrendFlights is the fewest flights a trend is fitted to (a robust slope
+// over fewer says little).
+const minTrendFlights = 5
+
+func (s *Service) trend(values []float64) *TrendView {
+	if len(values) < minTrendFlights {
+		return nil
+	}
+	r, err := wear.Trend(values, 0, s.Settings.TrendLimitPct)
+	if err != nil {
+		return nil
+	}
+	return &TrendView{N: r.N, Slope: r.Slope, BaselineMedian: r.BaselineMedian, RisePct: r.RisePct, Flag: r.Flag}
+}
