@@ -27,6 +27,10 @@ type Settings struct {
 	// BalanceGrade is the ISO 21940-11 grade of the rotors, mm/s (G 6.3
 	// default, common practice for small rotors).
 	BalanceGrade float64
+	// RotorMassKg is the rotating mass (propeller and motor bell) whose
+	// residual unbalance loads the bearings radially; 0.04 kg is a placeholder
+	// for a 10 to 15 inch propeller with its bell (from memory): set it per model.
+	RotorMassKg float64
 	// TrendFlights is how many recent flights an airframe trend looks at,
 	// TrendLimitPct the rise that flags it.
 	TrendFlights  int
@@ -38,7 +42,7 @@ type Settings struct {
 // DefaultSettings are the defaults above.
 func DefaultSettings() Settings {
 	return Settings{UtilisationWindow: 30 * 24 * time.Hour, RatedBearingHours: 500, BalanceGrade: 6.3,
-		TrendFlights: 20, TrendLimitPct: 10, EOLFraction: 0.8}
+		RotorMassKg: 0.04, TrendFlights: 20, TrendLimitPct: 10, EOLFraction: 0.8}
 }
 
 // Service computes and stores health views.

@@ -64,8 +64,8 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 	if err != nil {
 		return err
 	}
-	m := wear.BearingModel{BalanceGrade_mm_s: s.Settings.BalanceGrade}
-	set := BearingSettings{BalanceGrade: m.BalanceGrade_mm_s, LifeFactor: 1, Count: 2}
+	m := wear.BearingModel{BalanceGrade_mm_s: s.Settings.BalanceGrade, RotorMassKg: s.Settings.RotorMassKg}
+	set := BearingSettings{BalanceGrade: m.BalanceGrade_mm_s, RotorMassKg: m.RotorMassKg, LifeFactor: 1, Count: 2}
 	if b := specs.Bearing; b != nil {
 		m.Count, set.Count = b.Count, b.Count
 		if b.DynamicRatingN != nil {
