@@ -163,6 +163,7 @@ func (s *Server) createFit(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	s.recomputeAirframe(c.Request.Context(), id)
 	c.JSON(http.StatusCreated, f)
 }
 
@@ -197,6 +198,7 @@ func (s *Server) createRemoval(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	s.recomputeAirframe(c.Request.Context(), id)
 	c.JSON(http.StatusCreated, f)
 }
 

@@ -26,12 +26,13 @@ type flightInput struct {
 	TakeoffMassG   *float64  `json:"takeoff_mass_g"`
 	SiteElevationM *float64  `json:"site_elevation_m"`
 	Notes          string    `json:"notes"`
+	OverrideReason *string   `json:"override_reason"`
 }
 
 // flight turns the input into a domain flight, checking the ids.
 func (in *flightInput) flight() (*fleet.Flight, error) {
 	f := &fleet.Flight{Pilot: in.Pilot, TakeoffAt: in.TakeoffAt, LandingAt: in.LandingAt,
-		TakeoffMassG: in.TakeoffMassG, SiteElevationM: in.SiteElevationM, Notes: in.Notes}
+		TakeoffMassG: in.TakeoffMassG, SiteElevationM: in.SiteElevationM, Notes: in.Notes, OverrideReason: in.OverrideReason}
 	if in.AirframeID != "" { // missing is refused by validation, or filled from a log
 		id, err := store.ParseID("airframe_id", in.AirframeID)
 		if err != nil {
@@ -73,11 +74,22 @@ func (s *Server) createFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	if f.AirframeID != "" {
+		if err := f.Validate(); err != nil {
+			s.fail(c, err)
+			return
+		}
+		if err := s.gate(c.Request.Context(), f); err != nil {
+			s.fail(c, err)
+			return
+		}
+	}
 	out, err := s.db.CreateFlight(c.Request.Context(), f)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
+	s.recomputeAirframe(c.Request.Context(), out.AirframeID)
 	c.Header("Location", "/v1/flights/"+out.ID)
 	c.JSON(http.StatusCreated, store.NewFlightDetail(out))
 }
@@ -94,6 +106,7 @@ type uploadInput struct {
 	TakeoffMassG   *float64   `json:"takeoff_mass_g"`
 	SiteElevationM *float64   `json:"site_elevation_m"`
 	Notes          string     `json:"notes"`
+	OverrideReason *string    `json:"override_reason"`
 }
 
 // uploadFlight ingests a log: 201 with the new flight, or 200 with the flight
@@ -179,7 +192,7 @@ func (s *Server) uploadFlight(c *gin.Context) {
 
 func (in *uploadInput) flight() (*fleet.Flight, error) {
 	full := flightInput{JobID: in.JobID, Pilot: in.Pilot, Packs: in.Packs, TakeoffMassG: in.TakeoffMassG,
-		SiteElevationM: in.SiteElevationM, Notes: in.Notes}
+		SiteElevationM: in.SiteElevationM, Notes: in.Notes, OverrideReason: in.OverrideReason}
 	if in.TakeoffAt != nil {
 		full.TakeoffAt = *in.TakeoffAt
 	}

@@ -37,6 +37,25 @@ func (e *env) quad(code string) idBody {
 	return e.create("/v1/airframes", map[string]any{"code": code, "layout": "quad-x", "cells_s": 6, "model": "Surveyor 4"})
 }
 
+// fitQuad fits motors and propellers at every position of a quad-x from at,
+// so the airframe has no empty position.
+func (e *env) fitQuad(af idBody, prefix, lot string, at time.Time) (motors, props []idBody) {
+	e.t.Helper()
+	for i, rot := range []fleet.Rotation{fleet.CCW, fleet.CW, fleet.CCW, fleet.CW} {
+		m := e.motor(fmt.Sprintf("%s-M%d", prefix, i+1), rot, lot)
+		p := e.create("/v1/parts", map[string]any{"kind": "propeller", "serial": fmt.Sprintf("%s-P%d", prefix, i+1),
+			"part_number": "PR-1555", "specs": map[string]any{"rotation": rot, "diameter_in": 15, "blades": 2}})
+		for _, part := range []idBody{m, p} {
+			if r := e.call("POST", "/v1/airframes/"+af.ID+"/fits", tech, map[string]any{"part_id": part.ID,
+				"position": fmt.Sprintf("m%d", i+1), "at": at}); r.Status != 201 {
+				e.t.Fatalf("fit: %d %s", r.Status, r.Body)
+			}
+		}
+		motors, props = append(motors, m), append(props, p)
+	}
+	return motors, props
+}
+
 func (e *env) motor(serial string, rot fleet.Rotation, lot string) idBody {
 	return e.create("/v1/parts", map[string]any{"kind": "motor", "serial": serial, "part_number": "MT-4010",
 		"lot": lot, "specs": map[string]any{"rotation": rot, "kv": 370}})
@@ -47,15 +66,8 @@ func (e *env) motor(serial string, rot fleet.Rotation, lot string) idBody {
 func TestWalkthrough(t *testing.T) {
 	e := newEnv(t)
 	a := e.quad("HX-01")
-	rots := []fleet.Rotation{fleet.CCW, fleet.CW, fleet.CCW, fleet.CW}
 	t0 := time.Now().Add(-48 * time.Hour).UTC().Truncate(time.Second)
-	for i, rot := range rots {
-		m := e.motor(fmt.Sprintf("M-%d", i+1), rot, "L-2291")
-		if r := e.call("POST", "/v1/airframes/"+a.ID+"/fits", tech, map[string]any{
-			"part_id": m.ID, "position": fmt.Sprintf("m%d", i+1), "at": t0}); r.Status != 201 {
-			t.Fatalf("fit: %d %s", r.Status, r.Body)
-		}
-	}
+	e.fitQuad(a, "W", "L-2291", t0)
 	pack := e.create("/v1/parts", map[string]any{"kind": "pack", "serial": "P-100",
 		"specs": map[string]any{"chemistry": "lipo", "cells_s": 6, "cells_p": 1, "rated_mah": 16000}})
 	job := e.create("/v1/jobs", map[string]any{"code": "QUARRY-N", "client": "Northfield Aggregates", "site": "North pit"})
@@ -74,7 +86,7 @@ func TestWalkthrough(t *testing.T) {
 		} `json:"flights"`
 	}
 	e.call("GET", "/v1/jobs/"+job.ID+"/manifest", fleet.RoleViewer, nil).decode(t, &m)
-	if len(m.Flights) != 1 || len(m.Flights[0].Parts) != 4 || m.Flights[0].Packs[0].Serial != "P-100" {
+	if len(m.Flights) != 1 || len(m.Flights[0].Parts) != 8 || m.Flights[0].Packs[0].Serial != "P-100" {
 		t.Fatalf("manifest %+v", m)
 	}
 	if h := m.Flights[0].Hours; h < 22.0/60-1e-9 || h > 22.0/60+1e-9 {
@@ -85,16 +97,16 @@ func TestWalkthrough(t *testing.T) {
 	if err != nil || r.Status != 200 {
 		t.Fatalf("csv: %d %v", r.Status, err)
 	}
-	if len(rows) != 1+4+1 || rows[0][9] != "serial" || rows[5][7] != "pack" {
+	if len(rows) != 1+8+1 || rows[0][9] != "serial" || rows[9][7] != "pack" {
 		t.Fatalf("csv rows %v", rows)
 	}
-	// The fitment now has every motor and is missing every propeller.
+	// The fitment now has every motor and propeller.
 	var fm struct {
 		Parts []any                   `json:"parts"`
 		Empty []struct{ Kind string } `json:"empty"`
 	}
 	e.call("GET", "/v1/airframes/"+a.ID+"/fitment", fleet.RoleViewer, nil).decode(t, &fm)
-	if len(fm.Parts) != 4 || len(fm.Empty) != 4 || fm.Empty[0].Kind != "propeller" {
+	if len(fm.Parts) != 8 || len(fm.Empty) != 0 {
 		t.Fatalf("fitment %+v", fm)
 	}
 	// The lot trace finds the job.
@@ -105,14 +117,14 @@ func TestWalkthrough(t *testing.T) {
 	if len(tr.Jobs) != 1 || tr.Jobs[0].Code != "QUARRY-N" {
 		t.Fatalf("trace %+v", tr)
 	}
-	// Every write left an audit row: 1 airframe + 4 motors + 4 fits + 1 pack + 1 job + 1 flight
-	// (+ the 4 keys made for the test through the store).
+	// Every write left an audit row: 1 airframe + 8 parts + 8 fits + 1 pack + 1 job + 1 flight
+	// + 1 analysis-free manual flight has none (+ the 4 keys made for the test through the store).
 	var audit struct {
 		Items []struct{ Entity, Route string } `json:"items"`
 	}
 	e.call("GET", "/v1/audit?limit=500", admin, nil).decode(t, &audit)
-	if len(audit.Items) != 16 {
-		t.Fatalf("%d audit rows, want 16", len(audit.Items))
+	if len(audit.Items) != 24 {
+		t.Fatalf("%d audit rows, want 24", len(audit.Items))
 	}
 	if last := audit.Items[len(audit.Items)-1]; last.Entity != "flight" || last.Route != "/v1/flights" {
 		t.Fatalf("last audit row %+v", last)
@@ -212,6 +224,7 @@ func TestETagAndIfMatch(t *testing.T) {
 func TestBadInputNamesTheField(t *testing.T) {
 	e := newEnv(t)
 	a := e.quad("HX-06")
+	e.fitQuad(a, "B", "", time.Now().Add(-24*time.Hour))
 	cases := []struct {
 		name, method, path string
 		body               any
@@ -250,11 +263,12 @@ func TestBadInputNamesTheField(t *testing.T) {
 		}
 	}
 	// Overlapping flights are refused by the database and reported as 409.
-	ok := map[string]any{"airframe_id": a.ID, "pilot": "K", "takeoff_at": "2026-05-01T10:00:00Z", "landing_at": "2026-05-01T10:30:00Z"}
+	t1 := time.Now().Add(-3 * time.Hour).UTC().Truncate(time.Second)
+	ok := map[string]any{"airframe_id": a.ID, "pilot": "K", "takeoff_at": t1, "landing_at": t1.Add(30 * time.Minute)}
 	if r := e.call("POST", "/v1/flights", pilot, ok); r.Status != 201 {
 		t.Fatalf("flight: %d %s", r.Status, r.Body)
 	}
-	ok["takeoff_at"], ok["landing_at"] = "2026-05-01T10:15:00Z", "2026-05-01T10:45:00Z"
+	ok["takeoff_at"], ok["landing_at"] = t1.Add(15*time.Minute), t1.Add(45*time.Minute)
 	r := e.call("POST", "/v1/flights", pilot, ok)
 	if p := r.problem(t); r.Status != 409 || p.Field != "takeoff_at" {
 		t.Fatalf("overlap: %d %+v", r.Status, p)

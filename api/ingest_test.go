@@ -57,6 +57,7 @@ func (e *env) simFleet() (idBody, idBody, sim.FlightSpec) {
 	p := spec.Packs[0]
 	pack := e.create("/v1/parts", map[string]any{"kind": "pack", "serial": p.Serial, "mass_g": 500,
 		"specs": map[string]any{"chemistry": "lipo", "cells_s": p.CellsS, "cells_p": p.CellsP, "rated_mah": p.RatedMah, "c_rating": 25}})
+	e.fitQuad(a, "S", "", time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC))
 	return a, pack, spec
 }
 

@@ -74,7 +74,7 @@ func newEnv(t *testing.T) *env {
 	t.Parallel()
 	db := store.New(pgtest.NewPool(t))
 	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelError}))
-	e := &env{t: t, db: db, log: log, h: api.New(db, log, api.DefaultLimits).Handler(),
+	e := &env{t: t, db: db, log: log, h: api.New(db, log, api.DefaultLimits, nil).Handler(),
 		tokens: map[fleet.Role]string{}, keys: map[fleet.Role]string{}}
 	for _, r := range fleet.Roles {
 		k, tok, err := db.CreateKey(context.Background(), "test "+string(r), r)
@@ -89,7 +89,7 @@ func newEnv(t *testing.T) *env {
 // withLimits is the same environment served with other request limits.
 func (e *env) withLimits(rows int, bytes int64) *env {
 	c := *e
-	c.h = api.New(e.db, e.log, api.Limits{LogRows: rows, LogBytes: bytes}).Handler()
+	c.h = api.New(e.db, e.log, api.Limits{LogRows: rows, LogBytes: bytes}, nil).Handler()
 	return &c
 }
 

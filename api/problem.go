@@ -38,6 +38,8 @@ type Problem struct {
 	Line     int            `json:"line,omitempty"`
 	Column   string         `json:"column,omitempty"`
 	Errors   []ProblemError `json:"errors,omitempty"`
+	// Blockers say why an airframe may not fly (409 on a flight refused).
+	Blockers []fleet.ReadinessItem `json:"blockers,omitempty"`
 }
 
 // ProblemError locates one fault by JSON pointer (RFC 6901).
@@ -64,7 +66,7 @@ func (s *Server) fail(c *gin.Context, err error) {
 	}
 	var fe *fleet.Error
 	if errors.As(err, &fe) {
-		p.Field, p.Line, p.Column = fe.Field, fe.Line, fe.Column
+		p.Field, p.Line, p.Column, p.Blockers = fe.Field, fe.Line, fe.Column, fe.Blockers
 		if fe.Field != "" {
 			p.Errors = []ProblemError{{Pointer: pointer(fe.Field), Detail: fe.Message}}
 		}

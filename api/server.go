@@ -16,6 +16,7 @@ import (
 	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/openapi"
+	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 	"github.com/rotorwright/rotorwright/telemetry"
 )
@@ -37,6 +38,7 @@ type Server struct {
 	limits Limits
 	ingest *ingest.Ingester
 	health *health.Service
+	prog   *schedule.Programme
 	engine *gin.Engine
 }
 
@@ -101,10 +103,22 @@ var Routes = []Route{
 	{Method: "DELETE", Path: "/v1/keys/:id", Role: fleet.RoleAdmin, handler: (*Server).revokeKey},
 
 	{Method: "GET", Path: "/v1/audit", Role: fleet.RoleAdmin, handler: (*Server).listAudit},
+
+	{Method: "GET", Path: "/v1/service-rules", Role: fleet.RoleViewer, handler: (*Server).listRules},
+	{Method: "POST", Path: "/v1/service-rules", Role: fleet.RoleAdmin, handler: (*Server).createRule},
+	{Method: "GET", Path: "/v1/service-rules/:id", Role: fleet.RoleViewer, handler: (*Server).getRule},
+	{Method: "PATCH", Path: "/v1/service-rules/:id", Role: fleet.RoleAdmin, handler: (*Server).patchRule},
+	{Method: "DELETE", Path: "/v1/service-rules/:id", Role: fleet.RoleAdmin, handler: (*Server).deleteRule},
+	{Method: "GET", Path: "/v1/work-records", Role: fleet.RoleViewer, handler: (*Server).listWorkRecords},
+	{Method: "POST", Path: "/v1/work-records", Role: fleet.RoleTechnician, handler: (*Server).createWorkRecord},
+	{Method: "GET", Path: "/v1/due", Role: fleet.RoleViewer, handler: (*Server).listDue},
+	{Method: "GET", Path: "/v1/airframes/:id/readiness", Role: fleet.RoleViewer, handler: (*Server).readiness},
+	{Method: "GET", Path: "/v1/forecast/parts", Role: fleet.RoleViewer, handler: (*Server).partsForecast},
 }
 
-// New builds the server and its router.
-func New(db *store.DB, log *slog.Logger, limits Limits) *Server {
+// New builds the server and its router. prog may be nil for the default
+// programme (the app passes the one whose status changes feed the outbox).
+func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme) *Server {
 	if limits.JSONBytes == 0 {
 		limits.JSONBytes = DefaultLimits.JSONBytes
 	}
@@ -115,8 +129,20 @@ func New(db *store.DB, log *slog.Logger, limits Limits) *Server {
 		limits.LogRows = DefaultLimits.LogRows
 	}
 	hs := health.New(db)
-	s := &Server{db: db, log: log, limits: limits, health: hs,
-		ingest: &ingest.Ingester{DB: db, Health: hs, Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes}}}
+	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog}
+	if s.prog == nil {
+		s.prog = schedule.NewProgramme(db, hs)
+	}
+	s.ingest = &ingest.Ingester{DB: db, Health: hs, Gate: s.gate,
+		Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes},
+		After: func(ctx context.Context, f *fleet.Flight) error {
+			packs := make([]string, len(f.Packs))
+			for i, p := range f.Packs {
+				packs[i] = p.PartID
+			}
+			_, err := s.prog.RecomputeAirframe(ctx, f.AirframeID, packs)
+			return err
+		}}
 	gin.SetMode(gin.ReleaseMode)
 	e := gin.New()
 	e.HandleMethodNotAllowed = true

@@ -31,6 +31,8 @@ type Error struct {
 	// Line and Column locate a fault in an uploaded file (1-based line).
 	Line   int
 	Column string
+	// Blockers say why an airframe may not fly, when that is the refusal.
+	Blockers []ReadinessItem
 }
 
 func (e *Error) Error() string {

@@ -14,17 +14,20 @@ const (
 // landing minus take-off (14 CFR 1.1: from leaving the surface to touching it
 // at the next landing); each flight is one cycle.
 type Flight struct {
-	ID             string       `json:"id"`
-	AirframeID     string       `json:"airframe_id"`
-	JobID          *string      `json:"job_id"`
-	Pilot          string       `json:"pilot"`
-	TakeoffAt      time.Time    `json:"takeoff_at"`
-	LandingAt      time.Time    `json:"landing_at"`
-	TakeoffMassG   *float64     `json:"takeoff_mass_g"`
-	SiteElevationM *float64     `json:"site_elevation_m"`
-	Source         string       `json:"source"`
-	LogSHA256      *string      `json:"log_sha256"`
-	Notes          string       `json:"notes"`
+	ID             string    `json:"id"`
+	AirframeID     string    `json:"airframe_id"`
+	JobID          *string   `json:"job_id"`
+	Pilot          string    `json:"pilot"`
+	TakeoffAt      time.Time `json:"takeoff_at"`
+	LandingAt      time.Time `json:"landing_at"`
+	TakeoffMassG   *float64  `json:"takeoff_mass_g"`
+	SiteElevationM *float64  `json:"site_elevation_m"`
+	Source         string    `json:"source"`
+	LogSHA256      *string   `json:"log_sha256"`
+	Notes          string    `json:"notes"`
+	// OverrideReason records why the flight went ahead although the airframe
+	// was not ready; it is kept with the flight and its audit row.
+	OverrideReason *string      `json:"override_reason"`
 	Packs          []FlightPack `json:"packs"`
 	CreatedAt      time.Time    `json:"created_at"`
 }
@@ -68,6 +71,11 @@ func (f *Flight) Validate() error {
 	}
 	if f.SiteElevationM != nil && (*f.SiteElevationM < -500 || *f.SiteElevationM > 9000) {
 		return FieldError("site_elevation_m", "must be in [-500, 9000]")
+	}
+	if f.OverrideReason != nil {
+		if err := checkText("override_reason", *f.OverrideReason, 1, 500); err != nil {
+			return err
+		}
 	}
 	if len(f.Packs) > 8 {
 		return FieldError("packs", "at most 8 packs")

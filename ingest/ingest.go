@@ -31,6 +31,11 @@ type Ingester struct {
 	Limits telemetry.Limits
 	// Health, when set, refreshes the health of what a new flight touched.
 	Health *health.Service
+	// Gate, when set, may refuse a flight before it is written (readiness).
+	Gate func(ctx context.Context, f *fleet.Flight) error
+	// After, when set, runs after a new flight is recorded and its health
+	// refreshed (the due-list recompute); its error does not undo the flight.
+	After func(ctx context.Context, f *fleet.Flight) error
 	// HardLandingG overrides the analysis's hard-landing threshold (0: default).
 	HardLandingG float64
 }
@@ -69,6 +74,11 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
 		return Result{}, err
 	}
+	if in.Gate != nil {
+		if err := in.Gate(ctx, &f); err != nil {
+			return Result{}, err
+		}
+	}
 	facts, err := in.DB.FlightFacts(ctx, f.AirframeID, packIDs(f.Packs))
 	if err != nil {
 		return Result{}, err
@@ -92,6 +102,12 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		// The flight is recorded; a failed refresh is repaired by the next
 		// refresh or a fleet recompute, so it does not fail the upload.
 		res.HealthErr = in.Health.Refresh(ctx, id)
+	}
+	if created && in.After != nil {
+		f.ID = id
+		if err := in.After(ctx, &f); err != nil && res.HealthErr == nil {
+			res.HealthErr = err
+		}
 	}
 	return res, nil
 }

@@ -11,12 +11,12 @@ import (
 )
 
 const flightCols = `id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g, site_elevation_m,
-	source, log_sha256, notes, created_at`
+	source, log_sha256, notes, override_reason, created_at`
 
 func scanFlight(row pgx.Row) (*fleet.Flight, error) {
 	var f fleet.Flight
 	err := row.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.CreatedAt)
+		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt)
 	if err != nil {
 		return nil, err
 	}
@@ -60,10 +60,10 @@ func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Fligh
 	}
 	out, err := scanFlight(tx.QueryRow(ctx, `
 		INSERT INTO flights (id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g,
-			site_elevation_m, source, log_sha256, notes)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING `+flightCols,
+			site_elevation_m, source, log_sha256, notes, override_reason)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12) RETURNING `+flightCols,
 		newID(), f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
-		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes))
+		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason))
 	if err != nil {
 		return nil, err
 	}

@@ -243,7 +243,7 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]Stor
 		var s StoredLog
 		var f fleet.Flight
 		err := r.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.CreatedAt, &s.RawGz, &s.Version)
+			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &s.RawGz, &s.Version)
 		s.Flight = &f
 		return s, err
 	})

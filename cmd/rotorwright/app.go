@@ -78,7 +78,7 @@ func (a *App) open(ctx context.Context, attach bool) error {
 
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
-	srv := api.New(a.DB, a.log, api.DefaultLimits)
+	srv := api.New(a.DB, a.log, api.DefaultLimits, nil)
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,

@@ -1,0 +1,355 @@
+package api
+
+import (
+	"context"
+	"net/http"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/gin-gonic/gin"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// ruleInput is what an admin may set on a service rule.
+type ruleInput struct {
+	Name              string   `json:"name"`
+	Description       string   `json:"description"`
+	AppliesTo         string   `json:"applies_to"`
+	PartNumber        *string  `json:"part_number"`
+	Model             *string  `json:"model"`
+	FlightHours       *float64 `json:"flight_hours"`
+	Flights           *int     `json:"flights"`
+	Days              *int     `json:"days"`
+	Revolutions       *float64 `json:"revolutions"`
+	BearingPct        *float64 `json:"bearing_pct"`
+	Cycles            *float64 `json:"cycles"`
+	SoHBelowPct       *float64 `json:"soh_below_pct"`
+	IRRisePct         *float64 `json:"ir_rise_pct"`
+	EfficiencyRisePct *float64 `json:"efficiency_rise_pct"`
+	VibrationRisePct  *float64 `json:"vibration_rise_pct"`
+	OnEvents          []string `json:"on_events"`
+	WarnAt            float64  `json:"warn_at"`
+	Grounding         bool     `json:"grounding"`
+	Action            string   `json:"action"`
+	Enabled           bool     `json:"enabled"`
+}
+
+var ruleWritable = []string{"name", "description", "applies_to", "part_number", "model", "flight_hours", "flights",
+	"days", "revolutions", "bearing_pct", "cycles", "soh_below_pct", "ir_rise_pct", "efficiency_rise_pct",
+	"vibration_rise_pct", "on_events", "warn_at", "grounding", "action", "enabled"}
+
+func (in *ruleInput) rule(r *fleet.ServiceRule) {
+	r.Name, r.Description, r.AppliesTo, r.PartNumber, r.Model = in.Name, in.Description, in.AppliesTo, in.PartNumber, in.Model
+	r.FlightHours, r.Flights, r.Days, r.Revolutions, r.BearingPct = in.FlightHours, in.Flights, in.Days, in.Revolutions, in.BearingPct
+	r.Cycles, r.SoHBelowPct, r.IRRisePct = in.Cycles, in.SoHBelowPct, in.IRRisePct
+	r.EfficiencyRisePct, r.VibrationRisePct, r.OnEvents = in.EfficiencyRisePct, in.VibrationRisePct, in.OnEvents
+	r.WarnAt, r.Grounding, r.Action, r.Enabled = in.WarnAt, in.Grounding, in.Action, in.Enabled
+}
+
+func inputOf(r *fleet.ServiceRule) ruleInput {
+	return ruleInput{Name: r.Name, Description: r.Description, AppliesTo: r.AppliesTo, PartNumber: r.PartNumber,
+		Model: r.Model, FlightHours: r.FlightHours, Flights: r.Flights, Days: r.Days, Revolutions: r.Revolutions,
+		BearingPct: r.BearingPct, Cycles: r.Cycles, SoHBelowPct: r.SoHBelowPct, IRRisePct: r.IRRisePct,
+		EfficiencyRisePct: r.EfficiencyRisePct, VibrationRisePct: r.VibrationRisePct, OnEvents: r.OnEvents,
+		WarnAt: r.WarnAt, Grounding: r.Grounding, Action: r.Action, Enabled: r.Enabled}
+}
+
+func (s *Server) createRule(c *gin.Context) {
+	in := ruleInput{WarnAt: 0.9, Enabled: true}
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	var r fleet.ServiceRule
+	in.rule(&r)
+	out, err := s.db.CreateRule(c.Request.Context(), &r)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	s.recomputeFleet(c.Request.Context())
+	c.Header("Location", "/v1/service-rules/"+out.ID)
+	writeOne(c, http.StatusCreated, out.Version, out)
+}
+
+func (s *Server) listRules(c *gin.Context) {
+	list, err := s.db.Rules(c.Request.Context())
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, list, "")
+}
+
+func (s *Server) getRule(c *gin.Context) {
+	id, err := pathID(c, "service rule")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	r, err := s.db.Rule(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, r.Version, r)
+}
+
+func (s *Server) patchRule(c *gin.Context) {
+	id, err := pathID(c, "service rule")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	version, err := ifMatch(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	body, err := s.readBody(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	r, err := s.db.UpdateRule(c.Request.Context(), id, version, func(r *fleet.ServiceRule) error {
+		in := inputOf(r)
+		if err := applyMergePatch(body, &in, ruleWritable...); err != nil {
+			return err
+		}
+		in.rule(r)
+		return nil
+	})
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	s.recomputeFleet(c.Request.Context())
+	writeOne(c, http.StatusOK, r.Version, r)
+}
+
+func (s *Server) deleteRule(c *gin.Context) {
+	id, err := pathID(c, "service rule")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	version, err := ifMatch(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	if err := s.db.DeleteRule(c.Request.Context(), id, version); err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.Status(http.StatusNoContent)
+}
+
+type workInput struct {
+	At            *time.Time `json:"at"`
+	AirframeID    *string    `json:"airframe_id"`
+	PartID        *string    `json:"part_id"`
+	RuleID        *string    `json:"rule_id"`
+	Action        string     `json:"action"`
+	Work          string     `json:"work"`
+	PerformedBy   string     `json:"performed_by"`
+	ApprovedBy    *string    `json:"approved_by"`
+	RemovedPartID *string    `json:"removed_part_id"`
+	FittedPartID  *string    `json:"fitted_part_id"`
+	Resolves      []string   `json:"resolves"`
+	CorrectsID    *string    `json:"corrects_id"`
+}
+
+// createWorkRecord records work; a replacement swaps the part in the same
+// transaction, and the airframe's due list is recomputed at once.
+func (s *Server) createWorkRecord(c *gin.Context) {
+	var in workInput
+	if err := s.decodeJSON(c, &in); err != nil {
+		s.fail(c, err)
+		return
+	}
+	w := &fleet.WorkRecord{Action: in.Action, Work: in.Work, PerformedBy: in.PerformedBy, ApprovedBy: in.ApprovedBy}
+	if in.At != nil {
+		w.At = *in.At
+	}
+	var err error
+	for _, f := range []struct {
+		name string
+		in   *string
+		out  **string
+	}{{"airframe_id", in.AirframeID, &w.AirframeID}, {"part_id", in.PartID, &w.PartID}, {"rule_id", in.RuleID, &w.RuleID},
+		{"removed_part_id", in.RemovedPartID, &w.RemovedPartID}, {"fitted_part_id", in.FittedPartID, &w.FittedPartID},
+		{"corrects_id", in.CorrectsID, &w.CorrectsID}} {
+		if *f.out, err = optionalID(f.name, f.in); err != nil {
+			s.fail(c, err)
+			return
+		}
+	}
+	for i, ev := range in.Resolves {
+		id, err := store.ParseID("resolves["+strconv.Itoa(i)+"]", ev)
+		if err != nil {
+			s.fail(c, err)
+			return
+		}
+		w.Resolves = append(w.Resolves, id)
+	}
+	out, err := s.db.CreateWorkRecord(c.Request.Context(), w)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	if out.AirframeID != nil {
+		s.recomputeAirframe(c.Request.Context(), *out.AirframeID)
+	} else {
+		s.recomputeFleet(c.Request.Context())
+	}
+	c.Header("Location", "/v1/work-records?id="+out.ID)
+	c.JSON(http.StatusCreated, out)
+}
+
+func (s *Server) listWorkRecords(c *gin.Context) {
+	p, err := pageOf(c)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	var f store.WorkFilter
+	for _, q := range []struct {
+		name string
+		dst  *string
+	}{{"airframe_id", &f.AirframeID}, {"part_id", &f.PartID}, {"rule_id", &f.RuleID}} {
+		if *q.dst, err = queryID(c, q.name); err != nil {
+			s.fail(c, err)
+			return
+		}
+	}
+	list, next, err := s.db.WorkRecords(c.Request.Context(), f, p)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, list, next)
+}
+
+// listDue is the fleet due list with forecasts, most urgent first.
+func (s *Server) listDue(c *gin.Context) {
+	f := store.DueFilter{Status: c.Query("status")}
+	switch f.Status {
+	case "", fleet.DueOK, fleet.DueSoon, fleet.DueOverdue:
+	default:
+		s.fail(c, fleet.FieldError("status", "must be ok, due_soon or overdue"))
+		return
+	}
+	var err error
+	if f.AirframeID, err = queryID(c, "airframe"); err != nil {
+		s.fail(c, err)
+		return
+	}
+	if v := c.Query("within_days"); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 0 || n > 3650 {
+			s.fail(c, fleet.FieldError("within_days", "must be a whole number of days, 0 to 3650"))
+			return
+		}
+		t := time.Now().Add(time.Duration(n) * 24 * time.Hour)
+		f.Before = &t
+	}
+	items, err := s.db.DueItems(c.Request.Context(), f)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeList(c, items, "")
+}
+
+// readiness answers whether the airframe may fly now with the given packs.
+func (s *Server) readiness(c *gin.Context) {
+	id, err := pathID(c, "airframe")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	packs, err := packList(c.Query("packs"))
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	rd, err := s.prog.Readiness(c.Request.Context(), id, packs)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusOK, rd)
+}
+
+func packList(q string) ([]string, error) {
+	var out []string
+	for i, p := range strings.Split(q, ",") {
+		if p = strings.TrimSpace(p); p == "" {
+			continue
+		}
+		id, err := store.ParseID("packs", p)
+		if err != nil {
+			return nil, fleet.FieldError("packs", "packs[%d] is not a UUID", i)
+		}
+		out = append(out, id)
+	}
+	return out, nil
+}
+
+func (s *Server) partsForecast(c *gin.Context) {
+	days := 90
+	if v := c.Query("days"); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 1 || n > 730 {
+			s.fail(c, fleet.FieldError("days", "must be 1 to 730"))
+			return
+		}
+		days = n
+	}
+	f, err := s.prog.PartsForecast(c.Request.Context(), days)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	c.JSON(http.StatusOK, f)
+}
+
+// gate refuses a flight for an airframe that is not ready, unless the
+// request carries an override reason (kept with the flight and audited).
+func (s *Server) gate(ctx context.Context, f *fleet.Flight) error {
+	packs := make([]string, len(f.Packs))
+	for i, p := range f.Packs {
+		packs[i] = p.PartID
+	}
+	rd, err := s.prog.Readiness(ctx, f.AirframeID, packs)
+	if err != nil {
+		if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
+		}
+		return err
+	}
+	if rd.Ready || (f.OverrideReason != nil && strings.TrimSpace(*f.OverrideReason) != "") {
+		return nil
+	}
+	return &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Blockers: rd.Blockers,
+		Message: "the airframe is not ready to fly: " + rd.Blockers[0].Message +
+			" (resolve the blockers, or give override_reason to record why it flew anyway)"}
+}
+
+// recomputeAirframe keeps readiness current after a change; a failure is
+// logged and repaired by the scheduled recompute.
+func (s *Server) recomputeAirframe(ctx context.Context, airframeID string) {
+	if _, err := s.prog.RecomputeAirframe(ctx, airframeID, nil); err != nil {
+		s.log.Error("due recompute", "airframe", airframeID, "err", err)
+	}
+}
+
+func (s *Server) recomputeFleet(ctx context.Context) {
+	if _, err := s.prog.RecomputeFleet(ctx); err != nil {
+		s.log.Error("due recompute", "err", err)
+	}
+}

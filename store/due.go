@@ -1,0 +1,262 @@
+package store
+
+import (
+	"context"
+	"encoding/json"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// Subject is what a rule applies to: an airframe, or a part (fitted parts
+// belong to their airframe; packs to none).
+type Subject struct {
+	Kind       string // airframe or part
+	ID         string
+	Name       string // tail code or serial
+	AirframeID *string
+	PartNumber *string
+	Position   *string
+	Start      time.Time // when counting starts if the rule was never done
+}
+
+// RuleSubjects lists the subjects of a rule, within one airframe (its own
+// record and its fitted parts) when airframeID is set, or the whole fleet.
+// Extra packs (e.g. the packs of a flight just ingested) join when the rule is
+// a pack rule.
+func (db *DB) RuleSubjects(ctx context.Context, r *fleet.ServiceRule, airframeID string, packs []string) ([]Subject, error) {
+	var rows pgx.Rows
+	var err error
+	switch {
+	case r.AppliesTo == "airframe":
+		rows, err = db.pool.Query(ctx, `
+			SELECT 'airframe', a.id, a.code, a.id, NULL::text, NULL::text,
+				coalesce((SELECT min(takeoff_at) FROM flights WHERE airframe_id = a.id), a.created_at)
+			FROM airframes a
+			WHERE a.retired_at IS NULL AND ($1::uuid IS NULL OR a.id = $1) AND ($2::text IS NULL OR a.model = $2)`,
+			nilIfEmpty(airframeID), r.Model)
+	case r.AppliesTo == string(fleet.KindPack):
+		rows, err = db.pool.Query(ctx, `
+			SELECT 'part', p.id, p.serial, NULL::uuid, nullif(p.part_number, ''), NULL::text,
+				coalesce((SELECT min(lower(airborne)) FROM flight_packs WHERE part_id = p.id), p.created_at)
+			FROM parts p
+			WHERE p.kind = 'pack' AND p.status <> 'retired' AND ($1::text IS NULL OR p.part_number = $1)
+			  AND ($2::uuid IS NULL OR p.id = ANY($3::uuid[])
+			       OR EXISTS (SELECT 1 FROM flight_packs fp JOIN flights f ON f.id = fp.flight_id
+			                  WHERE fp.part_id = p.id AND f.airframe_id = $2))`,
+			r.PartNumber, nilIfEmpty(airframeID), packs)
+	default:
+		rows, err = db.pool.Query(ctx, `
+			SELECT 'part', p.id, p.serial, f.airframe_id, nullif(p.part_number, ''), f.position,
+				(SELECT min(lower(during)) FROM fits WHERE part_id = p.id)
+			FROM parts p JOIN fits f ON f.part_id = p.id AND upper_inf(f.during)
+			WHERE p.kind = $1 AND p.status <> 'retired' AND ($2::text IS NULL OR p.part_number = $2)
+			  AND ($3::uuid IS NULL OR f.airframe_id = $3)`,
+			r.AppliesTo, r.PartNumber, nilIfEmpty(airframeID))
+	}
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(row pgx.Row) (Subject, error) {
+		var s Subject
+		return s, row.Scan(&s.Kind, &s.ID, &s.Name, &s.AirframeID, &s.PartNumber, &s.Position, &s.Start)
+	})
+}
+
+// LastDone returns when a work record against the rule last covered the
+// subject (nil if never).
+func (db *DB) LastDone(ctx context.Context, ruleID string, s Subject) (*time.Time, error) {
+	var t *time.Time
+	err := db.pool.QueryRow(ctx, `
+		SELECT max(at) FROM work_records
+		WHERE rule_id = $1 AND CASE WHEN $2 = 'airframe' THEN airframe_id = $3 ELSE part_id = $3 END`,
+		ruleID, s.Kind, s.ID).Scan(&t)
+	return t, translate(err)
+}
+
+// Usage is what a subject went through from a moment on, and over the
+// trailing window for rates.
+type Usage struct {
+	Hours, Flights, Revolutions, Cycles                         float64
+	RecentHours, RecentFlights, RecentRevolutions, RecentCycles float64
+}
+
+// UsageSince sums the subject's flights (time in service and cycles),
+// revolutions at its position and pack equivalent full cycles since since,
+// and the same over [recentFrom, now).
+func (db *DB) UsageSince(ctx context.Context, s Subject, since, recentFrom time.Time) (Usage, error) {
+	var u Usage
+	var q string
+	switch {
+	case s.Kind == "airframe":
+		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8, 0::float8
+			FROM flights fl WHERE fl.airframe_id = $1 AND fl.takeoff_at >= $2`
+	case s.AirframeID == nil: // a pack
+		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8,
+				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), 0)
+			FROM flight_packs fp JOIN flights fl ON fl.id = fp.flight_id JOIN parts p ON p.id = fp.part_id
+			WHERE fp.part_id = $1 AND fl.takeoff_at >= $2`
+	default:
+		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600,
+				coalesce((SELECT revolutions FROM motor_runs mr WHERE mr.flight_id = fl.id AND mr.position = f.position), 0),
+				0::float8
+			FROM fits f JOIN flights fl ON ` + fitAtTakeoff + `
+			WHERE f.part_id = $1 AND fl.takeoff_at >= $2`
+	}
+	rows, err := db.pool.Query(ctx, q, s.ID, since)
+	if err != nil {
+		return u, translate(err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var at time.Time
+		var h, rev, cyc float64
+		if err := rows.Scan(&at, &h, &rev, &cyc); err != nil {
+			return u, translate(err)
+		}
+		u.Hours, u.Flights, u.Revolutions, u.Cycles = u.Hours+h, u.Flights+1, u.Revolutions+rev, u.Cycles+cyc
+		if !at.Before(recentFrom) {
+			u.RecentHours, u.RecentFlights = u.RecentHours+h, u.RecentFlights+1
+			u.RecentRevolutions, u.RecentCycles = u.RecentRevolutions+rev, u.RecentCycles+cyc
+		}
+	}
+	return u, translate(rows.Err())
+}
+
+// OpenEvent returns the earliest unresolved event of the kinds on the
+// subject (for an airframe, on it; for a part, naming it) from since on.
+func (db *DB) OpenEvent(ctx context.Context, kinds []string, s Subject, since time.Time) (*fleet.Event, error) {
+	if len(kinds) == 0 {
+		return nil, nil
+	}
+	e, err := scanEvent(db.pool.QueryRow(ctx, `
+		SELECT `+eventCols+` FROM events
+		WHERE kind = ANY($1) AND resolved_at IS NULL AND at >= $3
+		  AND CASE WHEN $2 = 'airframe' THEN airframe_id = $4 ELSE part_id = $4 END
+		ORDER BY at LIMIT 1`, kinds, s.Kind, since, s.ID))
+	if err == pgx.ErrNoRows {
+		return nil, nil
+	}
+	return e, translate(err)
+}
+
+// DueChange is called for each item whose status changed, inside the
+// transaction that writes the due list (for a transactional outbox).
+type DueChange func(ctx context.Context, tx pgx.Tx, previous string, item *fleet.DueItem) error
+
+// ReplaceDue rewrites the due items of a scope in one transaction: the whole
+// fleet when airframeID is empty, else the airframe's items (its own and its
+// parts') and those of the given subjects. Items of the scope no longer
+// computed are removed. A run that fails halfway writes nothing.
+func (db *DB) ReplaceDue(ctx context.Context, airframeID string, subjects []string, items []*fleet.DueItem, onChange DueChange) error {
+	const inScope = `($1::uuid IS NULL OR airframe_id = $1 OR subject_id = ANY($2::uuid[]))`
+	return db.inTx(ctx, func(tx pgx.Tx) error {
+		prev := map[string]string{}
+		rows, err := tx.Query(ctx, `
+			SELECT rule_id::text || '/' || subject_id::text, status FROM due_items
+			WHERE `+inScope+` FOR UPDATE`, nilIfEmpty(airframeID), subjects)
+		if err != nil {
+			return err
+		}
+		for rows.Next() {
+			var k, st string
+			if err := rows.Scan(&k, &st); err != nil {
+				rows.Close()
+				return err
+			}
+			prev[k] = st
+		}
+		rows.Close()
+		if _, err := tx.Exec(ctx, `DELETE FROM due_items WHERE `+inScope, nilIfEmpty(airframeID), subjects); err != nil {
+			return err
+		}
+		copyRows := make([][]any, 0, len(items))
+		for _, it := range items {
+			usage, err := json.Marshal(it.Usage)
+			if err != nil {
+				return err
+			}
+			copyRows = append(copyRows, []any{it.RuleID, it.SubjectKind, it.SubjectID, it.AirframeID, it.PartNumber,
+				it.LastDoneAt, it.Since, usage, it.Fraction, it.Status, it.Grounding, it.Reason, it.ForecastDate, it.ComputedAt})
+		}
+		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"due_items"}, []string{"rule_id", "subject_kind", "subject_id",
+			"airframe_id", "part_number", "last_done_at", "since", "usage", "fraction", "status", "grounding", "reason",
+			"forecast_date", "computed_at"}, pgx.CopyFromRows(copyRows)); err != nil {
+			return err
+		}
+		if onChange == nil {
+			return nil
+		}
+		for _, it := range items {
+			was, ok := prev[it.RuleID+"/"+it.SubjectID]
+			if !ok {
+				was = fleet.DueOK
+			}
+			if was != it.Status {
+				if err := onChange(ctx, tx, was, it); err != nil {
+					return err
+				}
+			}
+		}
+		return nil
+	})
+}
+
+// DueFilter narrows the due list.
+type DueFilter struct {
+	Status     string
+	AirframeID string
+	SubjectID  string
+	Before     *time.Time // forecast date before (or overdue)
+}
+
+// DueItems lists due items, most urgent first.
+func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT d.rule_id, r.name, r.action, d.subject_kind, d.subject_id,
+			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
+			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.computed_at
+		FROM due_items d JOIN service_rules r ON r.id = d.rule_id
+		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
+		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id
+		WHERE ($1 = '' OR d.status = $1) AND ($2::uuid IS NULL OR d.airframe_id = $2)
+		  AND ($3::timestamptz IS NULL OR d.status = 'overdue' OR d.forecast_date < $3)
+		  AND ($4::uuid IS NULL OR d.subject_id = $4)
+		ORDER BY CASE d.status WHEN 'overdue' THEN 0 WHEN 'due_soon' THEN 1 ELSE 2 END,
+			d.forecast_date NULLS LAST, d.fraction DESC`, f.Status, nilIfEmpty(f.AirframeID), f.Before, nilIfEmpty(f.SubjectID))
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (*fleet.DueItem, error) {
+		var d fleet.DueItem
+		var usage []byte
+		if err := r.Scan(&d.RuleID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
+			&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
+			&d.ForecastDate, &d.ComputedAt); err != nil {
+			return nil, err
+		}
+		return &d, json.Unmarshal(usage, &d.Usage)
+	})
+}
+
+// StockByPartNumber counts the parts in stock per part number.
+func (db *DB) StockByPartNumber(ctx context.Context) (map[string]int, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT part_number, count(*) FROM parts WHERE status = 'stock' AND part_number <> '' GROUP BY part_number`)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	out := map[string]int{}
+	for rows.Next() {
+		var pn string
+		var n int
+		if err := rows.Scan(&pn, &n); err != nil {
+			return nil, translate(err)
+		}
+		out[pn] = n
+	}
+	return out, translate(rows.Err())
+}
