@@ -17,6 +17,7 @@ import (
 	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/sim"
+	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -66,10 +67,16 @@ func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress
 		{"flights", func(sc *sim.Scenario) error { return l.loadFlights(sc, progress) }},
 		{"events", l.loadEvents},
 		{"pack checks", l.loadPackChecks},
+		{"inspections", l.loadInspections},
 		{"part statuses", l.loadStatuses},
 		{"health", func(*sim.Scenario) error {
 			n, err := health.New(l.db).Recompute(l.ctx, nil)
 			progress("demo: health computed for %d parts and airframes", n)
+			return err
+		}},
+		{"due list", func(*sim.Scenario) error {
+			n, err := schedule.NewProgramme(l.db, health.New(l.db)).RecomputeFleet(l.ctx)
+			progress("demo: due list computed, %d items", n)
 			return err
 		}},
 	}
@@ -155,11 +162,25 @@ func (l *loader) loadFits(sc *sim.Scenario) error {
 		at     time.Time
 		remove bool
 		fit    sim.Fit
+		work   *sim.WorkRecord
 	}
+	// A replacement is made by its work record, which removes and fits in one
+	// transaction: its two fit changes are not replayed on their own.
+	swapped := map[string]bool{}
 	var ops []op
+	for i := range sc.WorkRecords {
+		w := &sc.WorkRecords[i]
+		if w.Action == "replace" {
+			swapped[w.RemovedSerial+"@"+w.At.String()] = true
+			swapped[w.FittedSerial+"@"+w.At.String()] = true
+		}
+		ops = append(ops, op{at: w.At, work: w})
+	}
 	for _, f := range sc.Fits {
-		ops = append(ops, op{at: f.From, fit: f})
-		if !f.To.IsZero() {
+		if !swapped[f.Serial+"@"+f.From.String()] {
+			ops = append(ops, op{at: f.From, fit: f})
+		}
+		if !f.To.IsZero() && !swapped[f.Serial+"@"+f.To.String()] {
 			ops = append(ops, op{at: f.To, remove: true, fit: f})
 		}
 	}
@@ -170,6 +191,12 @@ func (l *loader) loadFits(sc *sim.Scenario) error {
 		return ops[i].remove && !ops[j].remove
 	})
 	for _, o := range ops {
+		if o.work != nil {
+			if err := l.loadWork(o.work); err != nil {
+				return fmt.Errorf("work record at %s: %w", o.work.Airframe, err)
+			}
+			continue
+		}
 		af, part := l.airframes[o.fit.Airframe], l.parts[o.fit.Serial]
 		var err error
 		if o.remove {
@@ -180,6 +207,52 @@ func (l *loader) loadFits(sc *sim.Scenario) error {
 		}
 		if err != nil {
 			return fmt.Errorf("%s at %s/%s: %w", o.fit.Serial, o.fit.Airframe, o.fit.Position, err)
+		}
+	}
+	return nil
+}
+
+func (l *loader) loadWork(w *sim.WorkRecord) error {
+	af := l.airframes[w.Airframe]
+	rec := &fleet.WorkRecord{At: w.At, AirframeID: &af, Action: w.Action, Work: w.Notes, PerformedBy: w.PerformedBy}
+	if w.RemovedSerial != "" {
+		id := l.parts[w.RemovedSerial]
+		rec.RemovedPartID, rec.PartID = &id, &id
+	}
+	if w.FittedSerial != "" {
+		id := l.parts[w.FittedSerial]
+		rec.FittedPartID = &id
+	}
+	_, err := l.db.CreateWorkRecord(l.ctx, rec)
+	return err
+}
+
+// loadInspections records each airframe's last periodic inspection, a few
+// days to a few weeks before the scenario's end, as a firm keeping its
+// programme would have (the story airframes keep their open events).
+func (l *loader) loadInspections(sc *sim.Scenario) error {
+	rules, err := l.db.Rules(l.ctx)
+	if err != nil {
+		return err
+	}
+	var rule *string
+	for _, r := range rules {
+		if r.Name == "airframe periodic inspection" {
+			rule = &r.ID
+		}
+	}
+	if rule == nil {
+		return nil // the firm edited the default programme away
+	}
+	approver := "J. Marsh"
+	for i, a := range sc.Airframes {
+		id := l.airframes[a.Code]
+		at := sc.End.Add(-time.Duration(6+5*i)*24*time.Hour - 9*time.Hour)
+		_, err := l.db.CreateWorkRecord(l.ctx, &fleet.WorkRecord{At: at, AirframeID: &id, RuleID: rule, Action: "inspect",
+			Work: "periodic inspection: arms, mounts, fasteners, wiring, connectors; no discrepancies",
+			PerformedBy: "R. Castell", ApprovedBy: &approver})
+		if err != nil {
+			return fmt.Errorf("%s: %w", a.Code, err)
 		}
 	}
 	return nil
