@@ -249,7 +249,7 @@ func (l *loader) loadInspections(sc *sim.Scenario) error {
 		id := l.airframes[a.Code]
 		at := sc.End.Add(-time.Duration(6+5*i)*24*time.Hour - 9*time.Hour)
 		_, err := l.db.CreateWorkRecord(l.ctx, &fleet.WorkRecord{At: at, AirframeID: &id, RuleID: rule, Action: "inspect",
-			Work: "periodic inspection: arms, mounts, fasteners, wiring, connectors; no discrepancies",
+			Work:        "periodic inspection: arms, mounts, fasteners, wiring, connectors; no discrepancies",
 			PerformedBy: "R. Castell", ApprovedBy: &approver})
 		if err != nil {
 			return fmt.Errorf("%s: %w", a.Code, err)
