@@ -318,27 +318,9 @@ func (s *Server) partsForecast(c *gin.Context) {
 	c.JSON(http.StatusOK, f)
 }
 
-// gate refuses a flight for an airframe that is not ready, unless the
-// request carries an override reason (kept with the flight and audited).
-func (s *Server) gate(ctx context.Context, f *fleet.Flight) error {
-	packs := make([]string, len(f.Packs))
-	for i, p := range f.Packs {
-		packs[i] = p.PartID
-	}
-	rd, err := s.prog.Readiness(ctx, f.AirframeID, packs)
-	if err != nil {
-		if fleet.ErrorCode(err) == fleet.ENOTFOUND {
-			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
-		}
-		return err
-	}
-	if rd.Ready || (f.OverrideReason != nil && strings.TrimSpace(*f.OverrideReason) != "") {
-		return nil
-	}
-	return &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Blockers: rd.Blockers,
-		Message: "the airframe is not ready to fly: " + rd.Blockers[0].Message +
-			" (resolve the blockers, or give override_reason to record why it flew anyway)"}
-}
+// gate refuses a flight for an airframe that is not ready unless it carries
+// an override reason (see schedule.Programme.Gate).
+func (s *Server) gate(ctx context.Context, f *fleet.Flight) error { return s.prog.Gate(ctx, f) }
 
 // recomputeAirframe keeps readiness current after a change; a failure is
 // logged and repaired by the scheduled recompute.

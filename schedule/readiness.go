@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -176,4 +177,27 @@ func (p *Programme) packFlags(ctx context.Context, pk *fleet.Part, block, warn n
 		}
 	}
 	return nil
+}
+
+// Gate refuses a flight for an airframe that is not ready (409 with the
+// blockers), unless the flight carries an override reason, which is kept
+// with the flight and its audit row.
+func (p *Programme) Gate(ctx context.Context, f *fleet.Flight) error {
+	packs := make([]string, len(f.Packs))
+	for i, pk := range f.Packs {
+		packs[i] = pk.PartID
+	}
+	rd, err := p.Readiness(ctx, f.AirframeID, packs)
+	if err != nil {
+		if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
+		}
+		return err
+	}
+	if rd.Ready || (f.OverrideReason != nil && strings.TrimSpace(*f.OverrideReason) != "") {
+		return nil
+	}
+	return &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Blockers: rd.Blockers,
+		Message: "the airframe is not ready to fly: " + rd.Blockers[0].Message +
+			" (resolve the blockers, or give override_reason to record why it flew anyway)"}
 }

@@ -85,27 +85,28 @@ type Usage struct {
 
 // UsageSince sums the subject's flights (time in service and cycles),
 // revolutions at its position and pack equivalent full cycles since since,
-// and the same over [recentFrom, now).
+// and the same over [recentFrom, now). The recent sums are the subject's
+// utilisation whatever the rule's reset: they include flights before since.
 func (db *DB) UsageSince(ctx context.Context, s Subject, since, recentFrom time.Time) (Usage, error) {
 	var u Usage
 	var q string
 	switch {
 	case s.Kind == "airframe":
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8, 0::float8
-			FROM flights fl WHERE fl.airframe_id = $1 AND fl.takeoff_at >= $2`
+			FROM flights fl WHERE fl.airframe_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
 	case s.AirframeID == nil: // a pack
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8,
 				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), 0)
 			FROM flight_packs fp JOIN flights fl ON fl.id = fp.flight_id JOIN parts p ON p.id = fp.part_id
-			WHERE fp.part_id = $1 AND fl.takeoff_at >= $2`
+			WHERE fp.part_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
 	default:
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600,
 				coalesce((SELECT revolutions FROM motor_runs mr WHERE mr.flight_id = fl.id AND mr.position = f.position), 0),
 				0::float8
 			FROM fits f JOIN flights fl ON ` + fitAtTakeoff + `
-			WHERE f.part_id = $1 AND fl.takeoff_at >= $2`
+			WHERE f.part_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
 	}
-	rows, err := db.pool.Query(ctx, q, s.ID, since)
+	rows, err := db.pool.Query(ctx, q, s.ID, since, recentFrom)
 	if err != nil {
 		return u, translate(err)
 	}
@@ -116,7 +117,9 @@ func (db *DB) UsageSince(ctx context.Context, s Subject, since, recentFrom time.
 		if err := rows.Scan(&at, &h, &rev, &cyc); err != nil {
 			return u, translate(err)
 		}
-		u.Hours, u.Flights, u.Revolutions, u.Cycles = u.Hours+h, u.Flights+1, u.Revolutions+rev, u.Cycles+cyc
+		if !at.Before(since) {
+			u.Hours, u.Flights, u.Revolutions, u.Cycles = u.Hours+h, u.Flights+1, u.Revolutions+rev, u.Cycles+cyc
+		}
 		if !at.Before(recentFrom) {
 			u.RecentHours, u.RecentFlights = u.RecentHours+h, u.RecentFlights+1
 			u.RecentRevolutions, u.RecentCycles = u.RecentRevolutions+rev, u.RecentCycles+cyc

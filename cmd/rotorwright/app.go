@@ -11,9 +11,13 @@ import (
 	"os"
 	"time"
 
+	"github.com/jackc/pgx/v5"
+
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/internal/pglocal"
+	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -76,9 +80,84 @@ func (a *App) open(ctx context.Context, attach bool) error {
 	return nil
 }
 
+// programme is the due-list programme whose status changes go to the
+// notification outbox in the same transaction.
+func (a *App) programme() *schedule.Programme {
+	p := schedule.NewProgramme(a.DB, health.New(a.DB))
+	p.Notify = func(ctx context.Context, tx pgx.Tx, previous string, it *fleet.DueItem) error {
+		kind := "due_" + it.Status
+		if it.Status == fleet.DueOverdue && it.Grounding {
+			kind = "grounded"
+		}
+		return schedule.Enqueue(ctx, tx, kind, it.Subject, map[string]any{"previous": previous, "item": it})
+	}
+	return p
+}
+
+// startSchedule starts the scheduled jobs (every replica runs the clock; the
+// advisory lock lets one run each tick) and the webhook deliverer.
+func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop func(), err error) {
+	r, err := schedule.NewRunner(a.DB.Pool(), schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log})
+	if err != nil {
+		return nil, err
+	}
+	cfg := r.Config()
+	// The due list is rewritten in its own single transaction, so a run
+	// interrupted halfway leaves the previous list whole.
+	if err := r.Register("recompute", cfg.Recompute, func(ctx context.Context, _ pgx.Tx) (map[string]int, error) {
+		n, err := prog.RecomputeFleet(ctx)
+		return map[string]int{"due_items": n}, err
+	}); err != nil {
+		return nil, err
+	}
+	if err := r.Register("nightly", cfg.Nightly, func(ctx context.Context, _ pgx.Tx) (map[string]int, error) {
+		h, err := prog.Health.Recompute(ctx, nil)
+		if err != nil {
+			return nil, err
+		}
+		n, err := prog.RecomputeFleet(ctx)
+		return map[string]int{"health_views": h, "due_items": n}, err
+	}); err != nil {
+		return nil, err
+	}
+	policy := schedule.Policy{AllowPrivate: a.cfg.WebhooksAllowPrivate, AllowLoopback: a.cfg.WebhooksAllowLoopback}
+	for _, u := range a.cfg.Webhooks {
+		if err := policy.ValidateURL(ctx, u); err != nil {
+			return nil, fmt.Errorf("ROTORWRIGHT_WEBHOOKS: %w", err)
+		}
+	}
+	r.Start()
+	dctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		if len(a.cfg.Webhooks) == 0 {
+			return
+		}
+		d := &schedule.Deliverer{Pool: a.DB.Pool(), URLs: a.cfg.Webhooks, Logger: a.log,
+			Client: schedule.NewClient(policy, 10*time.Second)}
+		d.Run(dctx, 10*time.Second)
+	}()
+	return func() {
+		sctx, scancel := context.WithTimeout(context.Background(), 60*time.Second)
+		defer scancel()
+		if err := r.Stop(sctx); err != nil {
+			a.log.Error("stopping scheduled jobs", "err", err)
+		}
+		cancel()
+		<-done
+	}, nil
+}
+
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
-	srv := api.New(a.DB, a.log, api.DefaultLimits, nil)
+	prog := a.programme()
+	stopSchedule, err := a.startSchedule(ctx, prog)
+	if err != nil {
+		return err
+	}
+	defer stopSchedule() // after the server drains: shutdown order per STYLE 14
+	srv := api.New(a.DB, a.log, api.DefaultLimits, prog)
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,

@@ -15,6 +15,13 @@ type Config struct {
 	Home        string
 	Addr        string
 	LogLevel    slog.Level
+	// Webhooks receive due-status notifications; private and loopback
+	// targets need WebhooksAllowPrivate / WebhooksAllowLoopback (SSRF guard).
+	Webhooks              []string
+	WebhooksAllowPrivate  bool
+	WebhooksAllowLoopback bool
+	CronRecompute         string
+	CronNightly           string
 }
 
 // ConfigFromEnv reads the environment.
@@ -24,6 +31,15 @@ func ConfigFromEnv() (Config, error) {
 		Home:        envOr("ROTORWRIGHT_HOME", "./.rotorwright"),
 		Addr:        envOr("ROTORWRIGHT_ADDR", "127.0.0.1:8080"),
 	}
+	for _, u := range strings.Split(os.Getenv("ROTORWRIGHT_WEBHOOKS"), ",") {
+		if u = strings.TrimSpace(u); u != "" {
+			c.Webhooks = append(c.Webhooks, u)
+		}
+	}
+	c.WebhooksAllowPrivate = os.Getenv("ROTORWRIGHT_WEBHOOKS_ALLOW_PRIVATE") == "true"
+	c.WebhooksAllowLoopback = os.Getenv("ROTORWRIGHT_WEBHOOKS_ALLOW_LOOPBACK") == "true"
+	c.CronRecompute = os.Getenv("ROTORWRIGHT_CRON_RECOMPUTE")
+	c.CronNightly = os.Getenv("ROTORWRIGHT_CRON_NIGHTLY")
 	if v := os.Getenv("ROTORWRIGHT_LOG_LEVEL"); v != "" {
 		if err := c.LogLevel.UnmarshalText([]byte(v)); err != nil {
 			return c, fmt.Errorf("ROTORWRIGHT_LOG_LEVEL: %q is not debug, info, warn or error", v)

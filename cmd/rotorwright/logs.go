@@ -16,6 +16,7 @@ import (
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/ingest"
+	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -26,6 +27,7 @@ func cmdImport(ctx context.Context, cfg Config, args []string) error {
 	cfg.flags(fs)
 	code := fs.String("airframe", "", "tail code of the airframe the logs belong to")
 	pilot := fs.String("pilot", "not recorded", "pilot to record on each flight")
+	override := fs.String("override", "", "record the flights even if the airframe is not ready, for this reason")
 	// The folder may come before the flags, as the usage line shows it.
 	var dir string
 	if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
@@ -60,7 +62,17 @@ func cmdImport(ctx context.Context, cfg Config, args []string) error {
 		return fmt.Errorf("airframe %s: %s", *code, fleet.ErrorMessage(err))
 	}
 	ctx = store.WithActor(ctx, store.Actor{Name: "import", Method: "CLI", Route: "import"})
-	in := &ingest.Ingester{DB: app.DB, Health: health.New(app.DB)}
+	hs := health.New(app.DB)
+	prog := schedule.NewProgramme(app.DB, hs)
+	in := &ingest.Ingester{DB: app.DB, Health: hs, Gate: prog.Gate,
+		After: func(ctx context.Context, f *fleet.Flight) error {
+			_, err := prog.RecomputeAirframe(ctx, f.AirframeID, nil)
+			return err
+		}}
+	var reasonPtr *string
+	if *override != "" {
+		reasonPtr = override
+	}
 	bar := progressbar.NewOptions(len(files), progressbar.OptionSetWriter(os.Stderr),
 		progressbar.OptionSetDescription("importing "+*code), progressbar.OptionShowCount(),
 		progressbar.OptionSetPredictTime(true), progressbar.OptionClearOnFinish())
@@ -68,7 +80,7 @@ func cmdImport(ctx context.Context, cfg Config, args []string) error {
 	var refused []string
 	start := time.Now()
 	for _, path := range files {
-		res, err := importOne(ctx, in, path, a.ID, *pilot)
+		res, err := importOne(ctx, in, path, a.ID, *pilot, reasonPtr)
 		switch {
 		case err != nil:
 			refused = append(refused, fmt.Sprintf("  %s: %s", filepath.Base(path), reason(err)))
@@ -90,12 +102,12 @@ func cmdImport(ctx context.Context, cfg Config, args []string) error {
 	return nil
 }
 
-func importOne(ctx context.Context, in *ingest.Ingester, path, airframeID, pilot string) (ingest.Result, error) {
+func importOne(ctx context.Context, in *ingest.Ingester, path, airframeID, pilot string, override *string) (ingest.Result, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return ingest.Result{}, err
 	}
-	return in.Ingest(ctx, ingest.Request{Flight: fleet.Flight{AirframeID: airframeID, Pilot: pilot}, Log: b})
+	return in.Ingest(ctx, ingest.Request{Flight: fleet.Flight{AirframeID: airframeID, Pilot: pilot, OverrideReason: override}, Log: b})
 }
 
 // reason is an error as a person reads it: the message, where in the file,
@@ -167,5 +179,51 @@ func cmdRecompute(ctx context.Context, cfg Config, args []string) error {
 		return err
 	}
 	fmt.Printf("recomputed health of %d parts and airframes in %s\n", n, time.Since(start).Round(time.Millisecond))
+	start = time.Now()
+	m, err := schedule.NewProgramme(app.DB, health.New(app.DB)).RecomputeFleet(ctx)
+	if err != nil {
+		return err
+	}
+	fmt.Printf("recomputed the due list (%d items) in %s\n", m, time.Since(start).Round(time.Millisecond))
+	return nil
+}
+
+// cmdDue prints the due list (overdue and due soon first) for scripts and
+// people at a terminal.
+func cmdDue(ctx context.Context, cfg Config, args []string) error {
+	fs := flag.NewFlagSet("due", flag.ContinueOnError)
+	cfg.flags(fs)
+	all := fs.Bool("all", false, "list items that are ok too")
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	app := NewApp(cfg)
+	defer app.Close()
+	if err := app.openForTool(ctx); err != nil {
+		return err
+	}
+	prog := schedule.NewProgramme(app.DB, health.New(app.DB))
+	if _, err := prog.RecomputeFleet(ctx); err != nil {
+		return err
+	}
+	items, err := app.DB.DueItems(ctx, store.DueFilter{})
+	if err != nil {
+		return err
+	}
+	fmt.Printf("%-9s %-10s %-16s %-40s %s\n", "STATUS", "GROUNDING", "SUBJECT", "RULE", "REASON / FORECAST")
+	for _, d := range items {
+		if d.Status == fleet.DueOK && !*all {
+			continue
+		}
+		fc := ""
+		if d.ForecastDate != nil {
+			fc = " / " + d.ForecastDate.Format("2006-01-02")
+		}
+		g := ""
+		if d.Grounding {
+			g = "grounding"
+		}
+		fmt.Printf("%-9s %-10s %-16s %-40s %s%s\n", d.Status, g, d.Subject, d.RuleName, d.Reason, fc)
+	}
 	return nil
 }

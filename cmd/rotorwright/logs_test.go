@@ -55,9 +55,18 @@ func TestImportAndReanalyze(t *testing.T) {
 	os.WriteFile(filepath.Join(dir, "flight-c-copy.csv"), first, 0o644)
 	os.WriteFile(filepath.Join(dir, "flight-d-bad.csv"), []byte("t_s,pack_v,pack_a\n0,16.8,0.5\n0.5,16.7,x\n"), 0o644)
 
+	// The airframe has no motors or propellers fitted: not ready, so every
+	// log is refused unless the import says why it records them anyway.
 	var runErr error
 	out := captureStdout(t, func() {
 		runErr = run(ctx, []string{"import", dir, "--airframe", "SIM-01", "--database-url", url})
+	})
+	if runErr == nil || !strings.Contains(out, "not ready to fly") {
+		t.Fatalf("import of logs for an unready airframe: %v\n%s", runErr, out)
+	}
+	out = captureStdout(t, func() {
+		runErr = run(ctx, []string{"import", dir, "--airframe", "SIM-01", "--override", "bench logs from the test rig",
+			"--database-url", url})
 	})
 	if runErr == nil || !strings.Contains(runErr.Error(), "1 of 4 logs refused") {
 		t.Fatalf("import error %v, want 1 of 4 refused", runErr)

@@ -19,7 +19,8 @@ Usage:
       roles: viewer, pilot, technician, admin
   rotorwright import DIR --airframe CODE       ingest every *.csv flight log in DIR, with a summary
   rotorwright reanalyze                        recompute every stored log's figures with the current model
-  rotorwright recompute                        recompute the health of every part and airframe
+  rotorwright recompute                        recompute the health of every part and airframe, and the due list
+  rotorwright due [--all]                      print the due list (overdue and due soon first)
 
 Environment: DATABASE_URL, ROTORWRIGHT_HOME (default ./.rotorwright), ROTORWRIGHT_ADDR
 (default 127.0.0.1:8080), ROTORWRIGHT_LOG_LEVEL (debug, info, warn, error).
@@ -59,6 +60,8 @@ func run(ctx context.Context, args []string) error {
 		return cmdReanalyze(ctx, cfg, args[1:])
 	case "recompute":
 		return cmdRecompute(ctx, cfg, args[1:])
+	case "due":
+		return cmdDue(ctx, cfg, args[1:])
 	case "help", "-h", "--help":
 		fmt.Print(usage)
 		return nil
