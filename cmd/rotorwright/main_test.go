@@ -80,38 +80,6 @@ func get(t *testing.T, url, token string, v any) int {
 	return res.StatusCode
 }
 
-// The demo on a given database: the firm is loaded once, the admin token
-// works, and the planted supplier lot is found across jobs.
-func TestDemoEndToEnd(t *testing.T) {
-	t.Parallel()
-	app, addr, _ := startApp(t, Config{DatabaseURL: pgtest.NewDB(t)})
-	token, err := runDemo(context.Background(), app, 2)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var list struct {
-		Items []struct{ Code string } `json:"items"`
-	}
-	if s := get(t, "http://"+addr+"/v1/airframes?limit=100", token, &list); s != 200 || len(list.Items) < 10 {
-		t.Fatalf("airframes: %d, %d items", s, len(list.Items))
-	}
-	// Loading again is a no-op: still the same airframes.
-	if _, err := runDemo(context.Background(), app, 2); err != nil {
-		t.Fatal(err)
-	}
-	n := len(list.Items)
-	get(t, "http://"+addr+"/v1/airframes?limit=100", token, &list)
-	if len(list.Items) != n {
-		t.Fatalf("second demo run changed the fleet: %d -> %d airframes", n, len(list.Items))
-	}
-	if s := get(t, "http://"+addr+"/readyz", "", nil); s != 200 {
-		t.Fatalf("readyz %d", s)
-	}
-	if s := get(t, "http://"+addr+"/v1/airframes", "", nil); s != 401 {
-		t.Fatalf("no token: %d", s)
-	}
-}
-
 // With no DATABASE_URL the app runs its own PostgreSQL in the home folder
 // and stops it on Close.
 func TestEmbeddedDefault(t *testing.T) {
