@@ -18,7 +18,7 @@ import (
 )
 
 type rig struct {
-	t   *testing.T
+	t   testing.TB
 	ctx context.Context
 	db  *store.DB
 	in  *ingest.Ingester
@@ -27,6 +27,10 @@ type rig struct {
 
 func newRig(t *testing.T) *rig {
 	t.Parallel()
+	return rigOn(t)
+}
+
+func rigOn(t testing.TB) *rig {
 	db := store.New(pgtest.NewPool(t))
 	hs := health.New(db)
 	return &rig{t: t, ctx: store.WithActor(context.Background(), store.Actor{Name: "test"}), db: db, hs: hs,
