@@ -172,8 +172,10 @@ func (p *Programme) packFlags(ctx context.Context, pk *fleet.Part, block, warn n
 	for _, d := range due {
 		if d.Status == fleet.DueOverdue && d.Grounding {
 			block(fleet.ReadyPackFlagged, pk.Serial, "%s is overdue on pack %s (%s)", d.RuleName, pk.Serial, d.Reason)
-		} else if d.Status != fleet.DueOK {
-			warn(fleet.ReadyDueSoon, pk.Serial, "%s is %s on pack %s (%s)", d.RuleName, d.Status, pk.Serial, d.Reason)
+		} else if d.Status == fleet.DueOverdue {
+			warn(fleet.ReadyOverdue, pk.Serial, "%s is overdue on pack %s (%s)", d.RuleName, pk.Serial, d.Reason)
+		} else if d.Status == fleet.DueSoon {
+			warn(fleet.ReadyDueSoon, pk.Serial, "%s is due soon on pack %s (%s)", d.RuleName, pk.Serial, d.Reason)
 		}
 	}
 	return nil

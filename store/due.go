@@ -66,12 +66,14 @@ func (db *DB) RuleSubjects(ctx context.Context, r *fleet.ServiceRule, airframeID
 }
 
 // LastDone returns when a work record against the rule last covered the
-// subject (nil if never).
+// subject (nil if never). A record that a later one corrects no longer
+// counts: the correction stands in its place.
 func (db *DB) LastDone(ctx context.Context, ruleID string, s Subject) (*time.Time, error) {
 	var t *time.Time
 	err := db.pool.QueryRow(ctx, `
-		SELECT max(at) FROM work_records
-		WHERE rule_id = $1 AND CASE WHEN $2 = 'airframe' THEN airframe_id = $3 ELSE part_id = $3 END`,
+		SELECT max(w.at) FROM work_records w
+		WHERE w.rule_id = $1 AND CASE WHEN $2 = 'airframe' THEN w.airframe_id = $3 ELSE w.part_id = $3 END
+		  AND NOT EXISTS (SELECT 1 FROM work_records c WHERE c.corrects_id = w.id)`,
 		ruleID, s.Kind, s.ID).Scan(&t)
 	return t, translate(err)
 }
