@@ -62,34 +62,11 @@ func (s *Server) listAirframes(c *gin.Context) {
 	writeList(c, list, next)
 }
 
-func (s *Server) getAirframe(c *gin.Context) {
-	id, err := pathID(c, "airframe")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	a, err := s.db.Airframe(c.Request.Context(), id)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	writeOne(c, http.StatusOK, a.Version, a)
-}
+func (s *Server) getAirframe(c *gin.Context) { getOne(s, c, "airframe", s.db.Airframe) }
 
 func (s *Server) patchAirframe(c *gin.Context) {
-	id, err := pathID(c, "airframe")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	version, err := ifMatch(c)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	body, err := s.readBody(c)
-	if err != nil {
-		s.fail(c, err)
+	id, version, body, ok := s.patchInput(c, "airframe")
+	if !ok {
 		return
 	}
 	a, err := s.db.UpdateAirframe(c.Request.Context(), id, version, func(a *fleet.Airframe) error {

@@ -90,19 +90,7 @@ func (s *Server) listEvents(c *gin.Context) {
 	writeList(c, list, next)
 }
 
-func (s *Server) getEvent(c *gin.Context) {
-	id, err := pathID(c, "event")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	e, err := s.db.Event(c.Request.Context(), id)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	writeOne(c, http.StatusOK, e.Version, e)
-}
+func (s *Server) getEvent(c *gin.Context) { getOne(s, c, "event", s.db.Event) }
 
 type eventPatch struct {
 	Detail     *string `json:"detail"`

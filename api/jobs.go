@@ -53,34 +53,11 @@ func (s *Server) listJobs(c *gin.Context) {
 	writeList(c, list, next)
 }
 
-func (s *Server) getJob(c *gin.Context) {
-	id, err := pathID(c, "job")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	j, err := s.db.Job(c.Request.Context(), id)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	writeOne(c, http.StatusOK, j.Version, j)
-}
+func (s *Server) getJob(c *gin.Context) { getOne(s, c, "job", s.db.Job) }
 
 func (s *Server) patchJob(c *gin.Context) {
-	id, err := pathID(c, "job")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	version, err := ifMatch(c)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	body, err := s.readBody(c)
-	if err != nil {
-		s.fail(c, err)
+	id, version, body, ok := s.patchInput(c, "job")
+	if !ok {
 		return
 	}
 	j, err := s.db.UpdateJob(c.Request.Context(), id, version, func(j *fleet.Job) error {

@@ -67,34 +67,11 @@ func (s *Server) listParts(c *gin.Context) {
 	writeList(c, list, next)
 }
 
-func (s *Server) getPart(c *gin.Context) {
-	id, err := pathID(c, "part")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	p, err := s.db.Part(c.Request.Context(), id)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	writeOne(c, http.StatusOK, p.Version, p)
-}
+func (s *Server) getPart(c *gin.Context) { getOne(s, c, "part", s.db.Part) }
 
 func (s *Server) patchPart(c *gin.Context) {
-	id, err := pathID(c, "part")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	version, err := ifMatch(c)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	body, err := s.readBody(c)
-	if err != nil {
-		s.fail(c, err)
+	id, version, body, ok := s.patchInput(c, "part")
+	if !ok {
 		return
 	}
 	p, err := s.db.UpdatePart(c.Request.Context(), id, version, func(p *fleet.Part) error {

@@ -84,34 +84,11 @@ func (s *Server) listRules(c *gin.Context) {
 	writeList(c, list, "")
 }
 
-func (s *Server) getRule(c *gin.Context) {
-	id, err := pathID(c, "service rule")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	r, err := s.db.Rule(c.Request.Context(), id)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	writeOne(c, http.StatusOK, r.Version, r)
-}
+func (s *Server) getRule(c *gin.Context) { getOne(s, c, "service rule", s.db.Rule) }
 
 func (s *Server) patchRule(c *gin.Context) {
-	id, err := pathID(c, "service rule")
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	version, err := ifMatch(c)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	body, err := s.readBody(c)
-	if err != nil {
-		s.fail(c, err)
+	id, version, body, ok := s.patchInput(c, "service rule")
+	if !ok {
 		return
 	}
 	r, err := s.db.UpdateRule(c.Request.Context(), id, version, func(r *fleet.ServiceRule) error {

@@ -2,6 +2,7 @@ package api
 
 import (
 	"bytes"
+	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -226,4 +227,40 @@ func queryTime(c *gin.Context, name string) (*time.Time, error) {
 func writeOne(c *gin.Context, status, version int, v any) {
 	c.Header("ETag", etag(version))
 	c.JSON(status, v)
+}
+
+// versioned is a record with an optimistic-concurrency version.
+type versioned interface{ ETagVersion() int }
+
+// getOne answers GET of one versioned record by the :id path parameter,
+// with its ETag.
+func getOne[T versioned](s *Server, c *gin.Context, what string, load func(context.Context, string) (T, error)) {
+	id, err := pathID(c, what)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	v, err := load(c.Request.Context(), id)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	writeOne(c, http.StatusOK, v.ETagVersion(), v)
+}
+
+// patchInput reads what every PATCH needs: the record id, the If-Match
+// version and the merge-patch body. On failure it has answered already.
+func (s *Server) patchInput(c *gin.Context, what string) (id string, version int, body []byte, ok bool) {
+	id, err := pathID(c, what)
+	if err == nil {
+		version, err = ifMatch(c)
+	}
+	if err == nil {
+		body, err = s.readBody(c)
+	}
+	if err != nil {
+		s.fail(c, err)
+		return "", 0, nil, false
+	}
+	return id, version, body, true
 }

@@ -114,3 +114,6 @@ type FittedPart struct {
 	Lot        string    `json:"lot"`
 	FittedAt   time.Time `json:"fitted_at"`
 }
+
+// ETagVersion is the version an ETag names.
+func (a *Airframe) ETagVersion() int { return a.Version }

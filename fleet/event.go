@@ -63,3 +63,6 @@ func DefaultSeverity(kind string) string {
 	}
 	return "warning"
 }
+
+// ETagVersion is the version an ETag names.
+func (e *Event) ETagVersion() int { return e.Version }

@@ -47,3 +47,6 @@ func (j *Job) Validate() error {
 	}
 	return nil
 }
+
+// ETagVersion is the version an ETag names.
+func (j *Job) ETagVersion() int { return j.Version }

@@ -128,3 +128,6 @@ func checkText(field, s string, min, max int) error {
 	}
 	return nil
 }
+
+// ETagVersion is the version an ETag names.
+func (p *Part) ETagVersion() int { return p.Version }

@@ -247,3 +247,6 @@ type Readiness struct {
 	Warnings   []ReadinessItem `json:"warnings"`
 	CheckedAt  time.Time       `json:"checked_at"`
 }
+
+// ETagVersion is the version an ETag names.
+func (r *ServiceRule) ETagVersion() int { return r.Version }
