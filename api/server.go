@@ -33,13 +33,14 @@ var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_00
 
 // Server holds the handlers' dependencies.
 type Server struct {
-	db     *store.DB
-	log    *slog.Logger
-	limits Limits
-	ingest *ingest.Ingester
-	health *health.Service
-	prog   *schedule.Programme
-	engine *gin.Engine
+	db      *store.DB
+	log     *slog.Logger
+	limits  Limits
+	ingest  *ingest.Ingester
+	health  *health.Service
+	prog    *schedule.Programme
+	metrics *metrics
+	engine  *gin.Engine
 }
 
 // Route is one API route and the least role that may call it; Public routes
@@ -57,6 +58,7 @@ var Routes = []Route{
 	{Method: "GET", Path: "/healthz", Public: true, handler: (*Server).healthz},
 	{Method: "GET", Path: "/readyz", Public: true, handler: (*Server).readyz},
 	{Method: "GET", Path: "/openapi.yaml", Public: true, handler: (*Server).openapiDoc},
+	{Method: "GET", Path: "/metrics", Public: true, handler: (*Server).metricsHandler},
 
 	{Method: "GET", Path: "/v1/layouts", Role: fleet.RoleViewer, handler: (*Server).listLayouts},
 	{Method: "POST", Path: "/v1/layouts", Role: fleet.RoleTechnician, handler: (*Server).createLayout},
@@ -129,7 +131,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 		limits.LogRows = DefaultLimits.LogRows
 	}
 	hs := health.New(db)
-	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog}
+	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics()}
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
@@ -147,7 +149,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	e := gin.New()
 	e.HandleMethodNotAllowed = true
 	e.ContextWithFallback = true
-	e.Use(s.recovery(), s.requestID())
+	e.Use(s.metrics.observe(), s.recovery(), s.requestID())
 	for _, r := range Routes {
 		h := r.handler
 		chain := []gin.HandlerFunc{}
