@@ -40,10 +40,12 @@ func TestMain(m *testing.M) {
 	spec = doc
 	// Flight logs are CSV with '#' comment lines, which a strict RFC 4180
 	// reader refuses: check text/csv bodies as text.
-	openapi3filter.RegisterBodyDecoder("text/csv", func(r io.Reader, _ http.Header, _ *openapi3.SchemaRef, _ openapi3filter.EncodingFn) (any, error) {
+	asText := func(r io.Reader, _ http.Header, _ *openapi3.SchemaRef, _ openapi3filter.EncodingFn) (any, error) {
 		b, err := io.ReadAll(r)
 		return string(b), err
-	})
+	}
+	openapi3filter.RegisterBodyDecoder("text/csv", asText)
+	openapi3filter.RegisterBodyDecoder("text/html", asText)
 	// Match requests on any host: the test server is not the documented one.
 	routed := *doc
 	routed.Servers = nil

@@ -19,6 +19,7 @@ import (
 	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 	"github.com/rotorwright/rotorwright/telemetry"
+	"github.com/rotorwright/rotorwright/web"
 )
 
 // Limits bound what one request may send.
@@ -59,6 +60,7 @@ var Routes = []Route{
 	{Method: "GET", Path: "/readyz", Public: true, handler: (*Server).readyz},
 	{Method: "GET", Path: "/openapi.yaml", Public: true, handler: (*Server).openapiDoc},
 	{Method: "GET", Path: "/metrics", Public: true, handler: (*Server).metricsHandler},
+	{Method: "GET", Path: "/", Public: true, handler: (*Server).board},
 
 	{Method: "GET", Path: "/v1/layouts", Role: fleet.RoleViewer, handler: (*Server).listLayouts},
 	{Method: "POST", Path: "/v1/layouts", Role: fleet.RoleTechnician, handler: (*Server).createLayout},
@@ -256,6 +258,14 @@ func (s *Server) readyz(c *gin.Context) {
 		return
 	}
 	c.JSON(http.StatusOK, gin.H{"status": "ready"})
+}
+
+// board serves the read-only board page; its data comes from the API with
+// the viewer's own token, so the page itself holds nothing.
+func (s *Server) board(c *gin.Context) {
+	c.Header("Content-Security-Policy", "default-src 'self'; script-src 'unsafe-inline' 'self'; style-src 'unsafe-inline'")
+	c.Header("X-Content-Type-Options", "nosniff")
+	c.Data(http.StatusOK, "text/html; charset=utf-8", web.Board)
 }
 
 func (s *Server) openapiDoc(c *gin.Context) {

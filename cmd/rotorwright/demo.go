@@ -44,6 +44,7 @@ func runDemo(ctx context.Context, app *App, months int) (string, error) {
 func printDemoBanner(addr, token string, took time.Duration) {
 	fmt.Fprintf(os.Stdout, `
 Rotorwright demo is up (ready in %s).
+  Board:    http://%s/  (paste the token)
   API:      http://%s/v1/airframes
   OpenAPI:  http://%s/openapi.yaml
   Admin token (shown once): %s
@@ -54,5 +55,5 @@ Decision support only: airworthiness decisions stay with the operator's maintena
 the manufacturer's instructions and local aviation rules. Lithium packs can burn: charge and
 store them as their maker says, never charge a swollen or damaged pack.
 Press Ctrl-C to stop (the embedded database stops with it).
-`, took.Round(100*time.Millisecond), addr, addr, token, token, addr)
+`, took.Round(100*time.Millisecond), addr, addr, addr, token, token, addr)
 }
