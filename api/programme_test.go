@@ -77,6 +77,11 @@ func TestProgrammeRoutes(t *testing.T) {
 	if rd.Ready || len(rd.Blockers) != 4 || rd.Blockers[0].Code != "overdue_grounding_rule" {
 		t.Fatalf("readiness after two flights %+v", rd)
 	}
+	var af idBody
+	e.call("GET", "/v1/airframes/"+a.ID, fleet.RoleViewer, nil).decode(t, &af)
+	if af.Status != "grounded" {
+		t.Fatalf("airframe status %q with overdue grounding items, want grounded", af.Status)
+	}
 	r := flight(6, "")
 	if p := r.problem(t); r.Status != 409 || len(p.Blockers) != 4 {
 		t.Fatalf("flight while grounded: %d %+v", r.Status, p)
@@ -168,6 +173,10 @@ func TestProgrammeRoutes(t *testing.T) {
 	e.call("GET", "/v1/airframes/"+a.ID+"/readiness", fleet.RoleViewer, nil).decode(t, &rd)
 	if !rd.Ready {
 		t.Fatalf("readiness after disabling the rule %+v", rd)
+	}
+	e.call("GET", "/v1/airframes/"+a.ID, fleet.RoleViewer, nil).decode(t, &af)
+	if af.Status != "active" {
+		t.Fatalf("airframe status %q after disabling the rule, want active", af.Status)
 	}
 	// A rule with work records cannot be deleted (disable it instead).
 	cur = e.call("GET", "/v1/service-rules/"+rl.ID, fleet.RoleViewer, nil)

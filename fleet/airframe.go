@@ -5,8 +5,8 @@ import (
 	"time"
 )
 
-// Airframe statuses. Grounded is derived: a manual hold (or, later, an overdue
-// grounding rule) grounds an active airframe.
+// Airframe statuses. Grounded is derived: a manual hold or an overdue
+// grounding rule grounds an active airframe.
 const (
 	AirframeActive   = "active"
 	AirframeGrounded = "grounded"
@@ -28,10 +28,12 @@ type Airframe struct {
 	HoldReason      *string    `json:"hold_reason"`
 	RetiredAt       *time.Time `json:"retired_at"`
 	Status          string     `json:"status"`
-	Notes           string     `json:"notes"`
-	Version         int        `json:"version"`
-	CreatedAt       time.Time  `json:"created_at"`
-	UpdatedAt       time.Time  `json:"updated_at"`
+	// GroundedByRule is set when an overdue grounding rule grounds it.
+	GroundedByRule bool      `json:"-"`
+	Notes          string    `json:"notes"`
+	Version        int       `json:"version"`
+	CreatedAt      time.Time `json:"created_at"`
+	UpdatedAt      time.Time `json:"updated_at"`
 }
 
 var codeRe = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9_.-]{0,31}$`)
@@ -84,7 +86,7 @@ func (a *Airframe) DeriveStatus() {
 	switch {
 	case a.RetiredAt != nil:
 		a.Status = AirframeRetired
-	case a.HoldReason != nil:
+	case a.HoldReason != nil, a.GroundedByRule:
 		a.Status = AirframeGrounded
 	default:
 		a.Status = AirframeActive

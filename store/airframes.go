@@ -9,14 +9,20 @@ import (
 	"github.com/rotorwright/rotorwright/fleet"
 )
 
+// airframeCols ends with whether an overdue grounding rule grounds the
+// airframe (its status is derived from that and the manual hold).
 const airframeCols = `id, code, name, model, layout, cells_s, packs_per_flight, empty_mass_g, mtow_g,
-	rotor_diameter_mm, hold_reason, retired_at, notes, version, created_at, updated_at`
+	rotor_diameter_mm, hold_reason, retired_at, notes, version, created_at, updated_at,
+	` + groundedByRule
+
+const groundedByRule = `EXISTS (SELECT 1 FROM due_items d
+	WHERE d.airframe_id = airframes.id AND d.status = 'overdue' AND d.grounding)`
 
 func scanAirframe(row pgx.Row) (*fleet.Airframe, error) {
 	var a fleet.Airframe
 	err := row.Scan(&a.ID, &a.Code, &a.Name, &a.Model, &a.Layout, &a.CellsS, &a.PacksPerFlight,
 		&a.EmptyMassG, &a.MTOWG, &a.RotorDiameterMM, &a.HoldReason, &a.RetiredAt, &a.Notes,
-		&a.Version, &a.CreatedAt, &a.UpdatedAt)
+		&a.Version, &a.CreatedAt, &a.UpdatedAt, &a.GroundedByRule)
 	if err != nil {
 		return nil, err
 	}
@@ -84,7 +90,7 @@ func (db *DB) Airframes(ctx context.Context, f AirframeFilter, p Page) ([]*fleet
 		  AND ($2 = '' OR model = $2)
 		  AND ($3 = '' OR layout = $3)
 		  AND ($4 = '' OR CASE WHEN retired_at IS NOT NULL THEN 'retired'
-		                       WHEN hold_reason IS NOT NULL THEN 'grounded' ELSE 'active' END = $4)
+		                       WHEN hold_reason IS NOT NULL OR `+groundedByRule+` THEN 'grounded' ELSE 'active' END = $4)
 		ORDER BY id LIMIT $5`, after, f.Model, f.Layout, f.Status, p.Limit+1)
 	if err != nil {
 		return nil, "", translate(err)
