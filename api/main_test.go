@@ -16,7 +16,6 @@ import (
 	"github.com/getkin/kin-openapi/openapi3filter"
 	"github.com/getkin/kin-openapi/routers"
 	"github.com/getkin/kin-openapi/routers/gorillamux"
-	"github.com/jackc/pgx/v5"
 
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
@@ -52,14 +51,7 @@ func TestMain(m *testing.M) {
 	if specRoute, err = gorillamux.NewRouter(&routed); err != nil {
 		panic("openapi router: " + err.Error())
 	}
-	pgtest.Main(m, func(ctx context.Context, url string) error {
-		conn, err := pgx.Connect(ctx, url)
-		if err != nil {
-			return err
-		}
-		defer conn.Close(ctx)
-		return migrations.Migrate(ctx, conn, nil)
-	})
+	pgtest.Main(m, migrations.Prepare)
 }
 
 // env is a server on a fresh database with one key per role.

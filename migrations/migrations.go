@@ -52,3 +52,14 @@ func Current(ctx context.Context, conn *pgx.Conn) (int32, error) {
 	}
 	return m.GetCurrentVersion(ctx)
 }
+
+// Prepare migrates the database at url on a connection of its own: the
+// preparation step of a test template database (pgtest.Main).
+func Prepare(ctx context.Context, url string) error {
+	conn, err := pgx.Connect(ctx, url)
+	if err != nil {
+		return err
+	}
+	defer conn.Close(ctx)
+	return Migrate(ctx, conn, nil)
+}

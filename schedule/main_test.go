@@ -5,7 +5,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 
 	"github.com/rotorwright/rotorwright/internal/pgtest"
@@ -13,14 +12,7 @@ import (
 )
 
 func TestMain(m *testing.M) {
-	pgtest.Main(m, func(ctx context.Context, url string) error {
-		conn, err := pgx.Connect(ctx, url)
-		if err != nil {
-			return err
-		}
-		defer conn.Close(ctx)
-		return migrations.Migrate(ctx, conn, nil)
-	})
+	pgtest.Main(m, migrations.Prepare)
 }
 
 // replicaPools returns n pools on one fresh database, standing in for n
