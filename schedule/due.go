@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"sync"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -55,8 +56,11 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 		return nil, nil, err
 	}
 	now := p.Now().UTC()
-	var items []*fleet.DueItem
-	var subjects []string
+	type task struct {
+		r *fleet.ServiceRule
+		s store.Subject
+	}
+	var tasks []task
 	for _, r := range rules {
 		if !r.Enabled {
 			continue
@@ -66,13 +70,38 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 			return nil, nil, err
 		}
 		for _, s := range subs {
-			it, err := p.item(ctx, r, s, now)
-			if err != nil {
-				return nil, nil, fmt.Errorf("rule %q on %s: %w", r.Name, s.Name, err)
-			}
-			items = append(items, it)
-			subjects = append(subjects, s.ID)
+			tasks = append(tasks, task{r, s})
 		}
+	}
+	// Each item is a few independent reads: a few workers overlap their
+	// round trips (the pool has connections to spare), order is kept.
+	items := make([]*fleet.DueItem, len(tasks))
+	errs := make([]error, len(tasks))
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < min(4, len(tasks)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				t := tasks[i]
+				if items[i], errs[i] = p.item(ctx, t.r, t.s, now); errs[i] != nil {
+					errs[i] = fmt.Errorf("rule %q on %s: %w", t.r.Name, t.s.Name, errs[i])
+				}
+			}
+		}()
+	}
+	for i := range tasks {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	subjects := make([]string, len(tasks))
+	for i, t := range tasks {
+		if errs[i] != nil {
+			return nil, nil, errs[i]
+		}
+		subjects[i] = t.s.ID
 	}
 	return items, subjects, nil
 }

@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"strings"
-	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
@@ -17,11 +16,12 @@ import (
 // reads the due list, which is recomputed after every ingest, fit change and
 // work record and by the scheduler. Decision support only.
 func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []string) (*fleet.Readiness, error) {
-	a, err := p.DB.Airframe(ctx, airframeID)
+	now := p.Now().UTC()
+	facts, err := p.DB.ReadinessFacts(ctx, airframeID, now)
 	if err != nil {
 		return nil, err
 	}
-	now := p.Now().UTC()
+	a := facts.Airframe
 	rd := &fleet.Readiness{AirframeID: a.ID, Blockers: []fleet.ReadinessItem{}, Warnings: []fleet.ReadinessItem{}, CheckedAt: now}
 	block := func(code, subject, format string, args ...any) {
 		rd.Blockers = append(rd.Blockers, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
@@ -35,11 +35,7 @@ func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []
 	if a.HoldReason != nil {
 		block(fleet.ReadyAirframeHeld, a.Code, "airframe %s is held: %s", a.Code, *a.HoldReason)
 	}
-	due, err := p.DB.DueItems(ctx, store.DueFilter{AirframeID: a.ID})
-	if err != nil {
-		return nil, err
-	}
-	for _, d := range due {
+	for _, d := range facts.Due {
 		switch {
 		case d.Status == fleet.DueOverdue && d.Grounding:
 			block(fleet.ReadyOverdueGrounding, d.Subject, "%s is overdue on %s (%s)", d.RuleName, d.Subject, d.Reason)
@@ -49,18 +45,20 @@ func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []
 			warn(fleet.ReadyDueSoon, d.Subject, "%s is due soon on %s (%s)", d.RuleName, d.Subject, d.Reason)
 		}
 	}
-	open := true
-	for _, kind := range []string{"crash", "hard_landing"} {
-		evs, _, err := p.DB.Events(ctx, store.EventFilter{AirframeID: a.ID, Kind: kind, Open: &open}, store.Page{Limit: 10})
-		if err != nil {
-			return nil, err
-		}
-		for _, e := range evs {
-			block(fleet.ReadyUnresolvedEvent, a.Code, "unresolved %s of %s: %s", e.Kind, e.At.Format("2006-01-02 15:04Z"), e.Detail)
-		}
+	for _, e := range facts.Events {
+		block(fleet.ReadyUnresolvedEvent, a.Code, "unresolved %s of %s: %s", e.Kind, e.At.Format("2006-01-02 15:04Z"), e.Detail)
 	}
-	if err := p.fitmentChecks(ctx, a, now, block); err != nil {
-		return nil, err
+	for _, e := range facts.Empty {
+		block(fleet.ReadyEmptyPosition, a.Code+"/"+e.Position, "no %s fitted at %s", e.Kind, e.Position)
+	}
+	for _, r := range facts.Rotors {
+		pos, ok := facts.Layout.Position(r.Position)
+		switch {
+		case !ok:
+			block(fleet.ReadyRotationMismatch, r.Serial, "%s %s sits at %s, which layout %s does not have", r.Kind, r.Serial, r.Position, facts.Layout.Name)
+		case r.Rotation != pos.Rotation:
+			block(fleet.ReadyRotationMismatch, r.Serial, "%s %s spins %s but %s turns %s", r.Kind, r.Serial, r.Rotation, r.Position, pos.Rotation)
+		}
 	}
 	if err := p.packChecks(ctx, a, packIDs, block, warn); err != nil {
 		return nil, err
@@ -70,38 +68,6 @@ func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []
 }
 
 type note func(code, subject, format string, args ...any)
-
-func (p *Programme) fitmentChecks(ctx context.Context, a *fleet.Airframe, now time.Time, block note) error {
-	fm, err := p.DB.Fitment(ctx, a.ID, now)
-	if err != nil {
-		return err
-	}
-	for _, e := range fm.Empty {
-		block(fleet.ReadyEmptyPosition, a.Code+"/"+e.Position, "no %s fitted at %s", e.Kind, e.Position)
-	}
-	l, err := p.DB.Layout(ctx, a.Layout)
-	if err != nil {
-		return err
-	}
-	for _, fp := range fm.Parts {
-		if fp.Kind != fleet.KindMotor && fp.Kind != fleet.KindPropeller {
-			continue
-		}
-		pos, ok := l.Position(fp.Position)
-		if !ok {
-			block(fleet.ReadyRotationMismatch, fp.Serial, "%s %s sits at %s, which layout %s does not have", fp.Kind, fp.Serial, fp.Position, l.Name)
-			continue
-		}
-		part, err := p.DB.Part(ctx, fp.PartID)
-		if err != nil {
-			return err
-		}
-		if rot := part.Rotation(); rot != pos.Rotation {
-			block(fleet.ReadyRotationMismatch, fp.Serial, "%s %s spins %s but %s turns %s", fp.Kind, fp.Serial, rot, fp.Position, pos.Rotation)
-		}
-	}
-	return nil
-}
 
 func (p *Programme) packChecks(ctx context.Context, a *fleet.Airframe, packIDs []string, block, warn note) error {
 	if len(packIDs) > 0 && len(packIDs) != a.PacksPerFlight {

@@ -265,3 +265,68 @@ func (db *DB) StockByPartNumber(ctx context.Context) (map[string]int, error) {
 	}
 	return out, translate(rows.Err())
 }
+
+// FittedRotor is a motor or propeller fitted now, with its rotation.
+type FittedRotor struct {
+	Kind     fleet.PartKind
+	Serial   string
+	Position string
+	Rotation fleet.Rotation
+}
+
+// ReadinessFacts is what a readiness answer reads about an airframe, in a
+// few queries: the airframe and its layout, the rotor parts fitted at the
+// moment with their rotation, the rotor places left empty, its open crash
+// and hard-landing events, and the due items of it and its parts.
+type ReadinessFacts struct {
+	Airframe *fleet.Airframe
+	Layout   *fleet.Layout
+	Rotors   []FittedRotor
+	Empty    []EmptyPlace
+	Events   []*fleet.Event
+	Due      []*fleet.DueItem
+}
+
+// ReadinessFacts loads the facts of a readiness answer at the moment at.
+func (db *DB) ReadinessFacts(ctx context.Context, airframeID string, at time.Time) (*ReadinessFacts, error) {
+	a, err := db.Airframe(ctx, airframeID)
+	if err != nil {
+		return nil, err
+	}
+	l, err := db.Layout(ctx, a.Layout)
+	if err != nil {
+		return nil, err
+	}
+	rf := &ReadinessFacts{Airframe: a, Layout: l}
+	rows, err := db.pool.Query(ctx, `
+		SELECT f.kind, p.serial, f.position, coalesce(p.specs->>'rotation', '')
+		FROM fits f JOIN parts p ON p.id = f.part_id
+		WHERE f.airframe_id = $1 AND f.during @> $2::timestamptz AND f.kind IN ('motor', 'propeller')
+		ORDER BY f.kind, f.position`, airframeID, at)
+	if err != nil {
+		return nil, translate(err)
+	}
+	rf.Rotors, err = collect(rows, func(r pgx.Row) (FittedRotor, error) {
+		var fr FittedRotor
+		return fr, r.Scan(&fr.Kind, &fr.Serial, &fr.Position, &fr.Rotation)
+	})
+	if err != nil {
+		return nil, err
+	}
+	parts := make([]fleet.FittedPart, len(rf.Rotors))
+	for i, r := range rf.Rotors {
+		parts[i] = fleet.FittedPart{Kind: r.Kind, Position: r.Position}
+	}
+	rf.Empty = emptyPlaces(l, parts)
+	rows, err = db.pool.Query(ctx, `
+		SELECT `+eventCols+` FROM events
+		WHERE airframe_id = $1 AND resolved_at IS NULL AND kind IN ('crash', 'hard_landing') ORDER BY at`, airframeID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	if rf.Events, err = collect(rows, scanEvent); err != nil {
+		return nil, err
+	}
+	rf.Due, err = db.DueItems(ctx, DueFilter{AirframeID: airframeID})
+	return rf, err
+}

@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"time"
 
@@ -170,32 +171,35 @@ type EmptyPlace struct {
 	Kind     fleet.PartKind `json:"kind"`
 }
 
-// Fitment returns the parts fitted on the airframe at the moment at.
+// FitmentSQL is the one query behind Fitment ($1 airframe, $2 moment):
+// the layout's positions and the parts fitted then, as JSON. Exported so
+// benchmarks can run the same SQL directly as their floor.
+const FitmentSQL = `
+		SELECT l.positions, coalesce((
+			SELECT json_agg(json_build_object('position', f.position, 'kind', f.kind, 'part_id', p.id,
+				'serial', p.serial, 'part_number', p.part_number, 'lot', p.lot, 'fitted_at', lower(f.during))
+				ORDER BY f.kind, f.position)
+			FROM fits f JOIN parts p ON p.id = f.part_id
+			WHERE f.airframe_id = a.id AND f.during @> $2::timestamptz), '[]')
+		FROM airframes a JOIN layouts l ON l.name = a.layout WHERE a.id = $1`
+
+// Fitment returns the parts fitted on the airframe at the moment at, in one
+// round trip (the layout for the empty places comes with it).
 func (db *DB) Fitment(ctx context.Context, airframeID string, at time.Time) (*Fitment, error) {
-	a, err := db.Airframe(ctx, airframeID)
+	var positions, parts []byte
+	err := db.pool.QueryRow(ctx, FitmentSQL, airframeID, at).Scan(&positions, &parts)
 	if err != nil {
+		return nil, translateNotFound(err, "airframe")
+	}
+	l := &fleet.Layout{}
+	if err := json.Unmarshal(positions, &l.Positions); err != nil {
 		return nil, err
 	}
-	l, err := db.Layout(ctx, a.Layout)
-	if err != nil {
+	fm := &Fitment{AirframeID: airframeID, At: at.UTC(), Parts: []fleet.FittedPart{}}
+	if err := json.Unmarshal(parts, &fm.Parts); err != nil {
 		return nil, err
 	}
-	rows, err := db.pool.Query(ctx, `
-		SELECT f.position, f.kind, p.id, p.serial, p.part_number, p.lot, lower(f.during)
-		FROM fits f JOIN parts p ON p.id = f.part_id
-		WHERE f.airframe_id = $1 AND f.during @> $2::timestamptz
-		ORDER BY f.kind, f.position`, airframeID, at)
-	if err != nil {
-		return nil, translate(err)
-	}
-	parts, err := collect(rows, scanFittedPart)
-	if err != nil {
-		return nil, err
-	}
-	fm := &Fitment{AirframeID: a.ID, At: at.UTC(), Parts: parts, Empty: emptyPlaces(l, parts)}
-	if fm.Parts == nil {
-		fm.Parts = []fleet.FittedPart{}
-	}
+	fm.Empty = emptyPlaces(l, fm.Parts)
 	return fm, nil
 }
 
