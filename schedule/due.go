@@ -73,13 +73,19 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 			tasks = append(tasks, task{r, s})
 		}
 	}
-	// Each item is a few independent reads: a few workers overlap their
-	// round trips (the pool has connections to spare), order is kept.
+	// Each item is a few independent reads: for a fleet, a few workers
+	// overlap their round trips (the pool has connections to spare); for one
+	// airframe's dozen items the hand-over costs more than it saves. Order
+	// is kept either way.
+	workers := 1
+	if len(tasks) > 50 {
+		workers = 4
+	}
 	items := make([]*fleet.DueItem, len(tasks))
 	errs := make([]error, len(tasks))
 	next := make(chan int)
 	var wg sync.WaitGroup
-	for w := 0; w < min(4, len(tasks)); w++ {
+	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
