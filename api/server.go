@@ -158,6 +158,13 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 		if !r.Public {
 			chain = append(chain, s.authenticate(r.Role))
 		}
+		if r.Method == http.MethodPost && !r.Public {
+			limit := limits.JSONBytes
+			if r.Path == "/v1/flights" {
+				limit = limits.LogBytes + limits.JSONBytes
+			}
+			chain = append(chain, s.idempotency(limit))
+		}
 		chain = append(chain, func(c *gin.Context) { h(s, c) })
 		e.Handle(r.Method, r.Path, chain...)
 	}
