@@ -10,35 +10,17 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
-// airframeInput is what a client may set on an airframe.
-type airframeInput struct {
-	Code            string   `json:"code"`
-	Name            string   `json:"name"`
-	Model           string   `json:"model"`
-	Layout          string   `json:"layout"`
-	CellsS          int      `json:"cells_s"`
-	PacksPerFlight  int      `json:"packs_per_flight"`
-	EmptyMassG      *float64 `json:"empty_mass_g"`
-	MTOWG           *float64 `json:"mtow_g"`
-	RotorDiameterMM *float64 `json:"rotor_diameter_mm"`
-	HoldReason      *string  `json:"hold_reason"`
-	Notes           string   `json:"notes"`
-}
-
+// airframeWritable are the members a client may set on an airframe.
 var airframeWritable = []string{"code", "name", "model", "layout", "cells_s", "packs_per_flight",
 	"empty_mass_g", "mtow_g", "rotor_diameter_mm", "hold_reason", "notes"}
 
 func (s *Server) createAirframe(c *gin.Context) {
-	in := airframeInput{PacksPerFlight: 1}
-	if err := s.decodeJSON(c, &in); err != nil {
+	in := fleet.Airframe{PacksPerFlight: 1}
+	if err := s.decodeWritable(c, &in, airframeWritable...); err != nil {
 		s.fail(c, err)
 		return
 	}
-	a, err := s.db.CreateAirframe(c.Request.Context(), &fleet.Airframe{
-		Code: in.Code, Name: in.Name, Model: in.Model, Layout: in.Layout, CellsS: in.CellsS,
-		PacksPerFlight: in.PacksPerFlight, EmptyMassG: in.EmptyMassG, MTOWG: in.MTOWG,
-		RotorDiameterMM: in.RotorDiameterMM, HoldReason: in.HoldReason, Notes: in.Notes,
-	})
+	a, err := s.db.CreateAirframe(c.Request.Context(), &in)
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -70,16 +52,7 @@ func (s *Server) patchAirframe(c *gin.Context) {
 		return
 	}
 	a, err := s.db.UpdateAirframe(c.Request.Context(), id, version, func(a *fleet.Airframe) error {
-		in := airframeInput{Code: a.Code, Name: a.Name, Model: a.Model, Layout: a.Layout, CellsS: a.CellsS,
-			PacksPerFlight: a.PacksPerFlight, EmptyMassG: a.EmptyMassG, MTOWG: a.MTOWG,
-			RotorDiameterMM: a.RotorDiameterMM, HoldReason: a.HoldReason, Notes: a.Notes}
-		if err := applyMergePatch(body, &in, airframeWritable...); err != nil {
-			return err
-		}
-		a.Code, a.Name, a.Model, a.Layout, a.CellsS = in.Code, in.Name, in.Model, in.Layout, in.CellsS
-		a.PacksPerFlight, a.EmptyMassG, a.MTOWG = in.PacksPerFlight, in.EmptyMassG, in.MTOWG
-		a.RotorDiameterMM, a.HoldReason, a.Notes = in.RotorDiameterMM, in.HoldReason, in.Notes
-		return nil
+		return applyMergePatch(body, a, airframeWritable...)
 	})
 	if err != nil {
 		s.fail(c, err)

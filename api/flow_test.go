@@ -231,6 +231,8 @@ func TestBadInputNamesTheField(t *testing.T) {
 		status             int
 		field              string
 	}{
+		{"read-only member", "POST", "/v1/airframes", map[string]any{"code": "X1", "layout": "quad-x", "cells_s": 6, "status": "retired"}, 400, "status"},
+		{"id not assignable", "POST", "/v1/parts", map[string]any{"kind": "other", "serial": "O1", "id": someID}, 400, "id"},
 		{"unknown member", "POST", "/v1/airframes", map[string]any{"code": "X1", "layout": "quad-x", "cells_s": 6, "colour": "red"}, 400, "colour"},
 		{"wrong type", "POST", "/v1/airframes", map[string]any{"code": "X1", "layout": "quad-x", "cells_s": "six"}, 400, "cells_s"},
 		{"missing code", "POST", "/v1/airframes", map[string]any{"layout": "quad-x", "cells_s": 6}, 400, "code"},

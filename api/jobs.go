@@ -12,25 +12,16 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
-type jobInput struct {
-	Code     string  `json:"code"`
-	Client   string  `json:"client"`
-	Site     string  `json:"site"`
-	StartsOn *string `json:"starts_on"`
-	EndsOn   *string `json:"ends_on"`
-	Notes    string  `json:"notes"`
-}
-
+// jobWritable are the members a client may set on a job.
 var jobWritable = []string{"code", "client", "site", "starts_on", "ends_on", "notes"}
 
 func (s *Server) createJob(c *gin.Context) {
-	var in jobInput
-	if err := s.decodeJSON(c, &in); err != nil {
+	var in fleet.Job
+	if err := s.decodeWritable(c, &in, jobWritable...); err != nil {
 		s.fail(c, err)
 		return
 	}
-	j, err := s.db.CreateJob(c.Request.Context(), &fleet.Job{Code: in.Code, Client: in.Client, Site: in.Site,
-		StartsOn: in.StartsOn, EndsOn: in.EndsOn, Notes: in.Notes})
+	j, err := s.db.CreateJob(c.Request.Context(), &in)
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -61,12 +52,7 @@ func (s *Server) patchJob(c *gin.Context) {
 		return
 	}
 	j, err := s.db.UpdateJob(c.Request.Context(), id, version, func(j *fleet.Job) error {
-		in := jobInput{Code: j.Code, Client: j.Client, Site: j.Site, StartsOn: j.StartsOn, EndsOn: j.EndsOn, Notes: j.Notes}
-		if err := applyMergePatch(body, &in, jobWritable...); err != nil {
-			return err
-		}
-		j.Code, j.Client, j.Site, j.StartsOn, j.EndsOn, j.Notes = in.Code, in.Client, in.Site, in.StartsOn, in.EndsOn, in.Notes
-		return nil
+		return applyMergePatch(body, j, jobWritable...)
 	})
 	if err != nil {
 		s.fail(c, err)

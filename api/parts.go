@@ -1,7 +1,6 @@
 package api
 
 import (
-	"encoding/json"
 	"net/http"
 
 	"github.com/gin-gonic/gin"
@@ -10,38 +9,17 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
-// partInput is what a client may set on a part.
-type partInput struct {
-	Kind          fleet.PartKind  `json:"kind"`
-	Serial        string          `json:"serial"`
-	PartNumber    string          `json:"part_number"`
-	Lot           string          `json:"lot"`
-	Maker         string          `json:"maker"`
-	AcquiredOn    *string         `json:"acquired_on"`
-	MassG         *float64        `json:"mass_g"`
-	Status        string          `json:"status"`
-	RetiredReason *string         `json:"retired_reason"`
-	Specs         json.RawMessage `json:"specs"`
-	Notes         string          `json:"notes"`
-}
-
+// partWritable are the members a client may change on a part; the kind is
+// set once, on creation.
 var partWritable = []string{"serial", "part_number", "lot", "maker", "acquired_on", "mass_g", "status",
 	"retired_reason", "specs", "notes"}
 
-func (in *partInput) apply(p *fleet.Part) {
-	p.Kind, p.Serial, p.PartNumber, p.Lot, p.Maker = in.Kind, in.Serial, in.PartNumber, in.Lot, in.Maker
-	p.AcquiredOn, p.MassG, p.Status, p.RetiredReason = in.AcquiredOn, in.MassG, in.Status, in.RetiredReason
-	p.Specs, p.Notes = in.Specs, in.Notes
-}
-
 func (s *Server) createPart(c *gin.Context) {
-	var in partInput
-	if err := s.decodeJSON(c, &in); err != nil {
+	var p fleet.Part
+	if err := s.decodeWritable(c, &p, append(partWritable, "kind")...); err != nil {
 		s.fail(c, err)
 		return
 	}
-	var p fleet.Part
-	in.apply(&p)
 	out, err := s.db.CreatePart(c.Request.Context(), &p)
 	if err != nil {
 		s.fail(c, err)
@@ -75,14 +53,7 @@ func (s *Server) patchPart(c *gin.Context) {
 		return
 	}
 	p, err := s.db.UpdatePart(c.Request.Context(), id, version, func(p *fleet.Part) error {
-		in := partInput{Kind: p.Kind, Serial: p.Serial, PartNumber: p.PartNumber, Lot: p.Lot, Maker: p.Maker,
-			AcquiredOn: p.AcquiredOn, MassG: p.MassG, Status: p.Status, RetiredReason: p.RetiredReason,
-			Specs: p.Specs, Notes: p.Notes}
-		if err := applyMergePatch(body, &in, partWritable...); err != nil {
-			return err
-		}
-		in.apply(p)
-		return nil
+		return applyMergePatch(body, p, partWritable...)
 	})
 	if err != nil {
 		s.fail(c, err)

@@ -13,58 +13,17 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
-// ruleInput is what an admin may set on a service rule.
-type ruleInput struct {
-	Name              string   `json:"name"`
-	Description       string   `json:"description"`
-	AppliesTo         string   `json:"applies_to"`
-	PartNumber        *string  `json:"part_number"`
-	Model             *string  `json:"model"`
-	FlightHours       *float64 `json:"flight_hours"`
-	Flights           *int     `json:"flights"`
-	Days              *int     `json:"days"`
-	Revolutions       *float64 `json:"revolutions"`
-	BearingPct        *float64 `json:"bearing_pct"`
-	Cycles            *float64 `json:"cycles"`
-	SoHBelowPct       *float64 `json:"soh_below_pct"`
-	IRRisePct         *float64 `json:"ir_rise_pct"`
-	EfficiencyRisePct *float64 `json:"efficiency_rise_pct"`
-	VibrationRisePct  *float64 `json:"vibration_rise_pct"`
-	OnEvents          []string `json:"on_events"`
-	WarnAt            float64  `json:"warn_at"`
-	Grounding         bool     `json:"grounding"`
-	Action            string   `json:"action"`
-	Enabled           bool     `json:"enabled"`
-}
-
+// ruleWritable are the members an admin may set on a service rule.
 var ruleWritable = []string{"name", "description", "applies_to", "part_number", "model", "flight_hours", "flights",
 	"days", "revolutions", "bearing_pct", "cycles", "soh_below_pct", "ir_rise_pct", "efficiency_rise_pct",
 	"vibration_rise_pct", "on_events", "warn_at", "grounding", "action", "enabled"}
 
-func (in *ruleInput) rule(r *fleet.ServiceRule) {
-	r.Name, r.Description, r.AppliesTo, r.PartNumber, r.Model = in.Name, in.Description, in.AppliesTo, in.PartNumber, in.Model
-	r.FlightHours, r.Flights, r.Days, r.Revolutions, r.BearingPct = in.FlightHours, in.Flights, in.Days, in.Revolutions, in.BearingPct
-	r.Cycles, r.SoHBelowPct, r.IRRisePct = in.Cycles, in.SoHBelowPct, in.IRRisePct
-	r.EfficiencyRisePct, r.VibrationRisePct, r.OnEvents = in.EfficiencyRisePct, in.VibrationRisePct, in.OnEvents
-	r.WarnAt, r.Grounding, r.Action, r.Enabled = in.WarnAt, in.Grounding, in.Action, in.Enabled
-}
-
-func inputOf(r *fleet.ServiceRule) ruleInput {
-	return ruleInput{Name: r.Name, Description: r.Description, AppliesTo: r.AppliesTo, PartNumber: r.PartNumber,
-		Model: r.Model, FlightHours: r.FlightHours, Flights: r.Flights, Days: r.Days, Revolutions: r.Revolutions,
-		BearingPct: r.BearingPct, Cycles: r.Cycles, SoHBelowPct: r.SoHBelowPct, IRRisePct: r.IRRisePct,
-		EfficiencyRisePct: r.EfficiencyRisePct, VibrationRisePct: r.VibrationRisePct, OnEvents: r.OnEvents,
-		WarnAt: r.WarnAt, Grounding: r.Grounding, Action: r.Action, Enabled: r.Enabled}
-}
-
 func (s *Server) createRule(c *gin.Context) {
-	in := ruleInput{WarnAt: 0.9, Enabled: true}
-	if err := s.decodeJSON(c, &in); err != nil {
+	r := fleet.ServiceRule{WarnAt: 0.9, Enabled: true}
+	if err := s.decodeWritable(c, &r, ruleWritable...); err != nil {
 		s.fail(c, err)
 		return
 	}
-	var r fleet.ServiceRule
-	in.rule(&r)
 	out, err := s.db.CreateRule(c.Request.Context(), &r)
 	if err != nil {
 		s.fail(c, err)
@@ -92,12 +51,7 @@ func (s *Server) patchRule(c *gin.Context) {
 		return
 	}
 	r, err := s.db.UpdateRule(c.Request.Context(), id, version, func(r *fleet.ServiceRule) error {
-		in := inputOf(r)
-		if err := applyMergePatch(body, &in, ruleWritable...); err != nil {
-			return err
-		}
-		in.rule(r)
-		return nil
+		return applyMergePatch(body, r, ruleWritable...)
 	})
 	if err != nil {
 		s.fail(c, err)

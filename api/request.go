@@ -102,13 +102,14 @@ func jsonType(goType string) string {
 	return "object"
 }
 
-// applyMergePatch applies an RFC 7396 merge patch to in (an input struct),
-// limited to the writable top-level members: the patch is laid over in's JSON
-// form and decoded back, so validation sees the merged whole.
+// applyMergePatch applies an RFC 7396 merge patch to in (a domain record),
+// limited to the writable top-level members, so read-only ones (id, version,
+// status...) cannot be assigned: the patch is laid over in's JSON form and
+// decoded back, and validation sees the merged whole.
 func applyMergePatch(body []byte, in any, writable ...string) error {
 	var patch map[string]json.RawMessage
 	if err := json.Unmarshal(body, &patch); err != nil || patch == nil {
-		return fleet.Errorf(fleet.EINVALID, "send a JSON object of the members to change")
+		return fleet.Errorf(fleet.EINVALID, "send a JSON object")
 	}
 	ok := map[string]bool{}
 	for _, w := range writable {
@@ -263,4 +264,14 @@ func (s *Server) patchInput(c *gin.Context, what string) (id string, version int
 		return "", 0, nil, false
 	}
 	return id, version, body, true
+}
+
+// decodeWritable reads a create body onto v (which holds the defaults) with
+// the same rules as a merge patch: only writable members may be sent.
+func (s *Server) decodeWritable(c *gin.Context, v any, writable ...string) error {
+	body, err := s.readBody(c)
+	if err != nil {
+		return err
+	}
+	return applyMergePatch(body, v, writable...)
 }
