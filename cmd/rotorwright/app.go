@@ -111,12 +111,8 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 		return nil, err
 	}
 	if err := r.Register("nightly", cfg.Nightly, func(ctx context.Context, _ pgx.Tx) (map[string]int, error) {
-		h, err := prog.Health.Recompute(ctx, nil)
-		if err != nil {
-			return nil, err
-		}
-		n, err := prog.RecomputeFleet(ctx)
-		return map[string]int{"health_views": h, "due_items": n}, err
+		res, err := prog.RecomputeAll(ctx)
+		return map[string]int{"health_views": res.HealthViews, "due_items": res.DueItems}, err
 	}); err != nil {
 		return nil, err
 	}
@@ -244,44 +240,53 @@ func cmdServe(ctx context.Context, cfg Config, args []string, demo bool) error {
 	return <-errc
 }
 
-func cmdMigrate(ctx context.Context, cfg Config, args []string) error {
-	fs := flag.NewFlagSet("migrate", flag.ContinueOnError)
+// runTool runs a command that needs the database: it parses the command's
+// flags (bind adds its own to the configuration flags), opens the app next
+// to any serving instance, runs body and closes the app.
+func runTool(ctx context.Context, cfg Config, name string, args []string, bind func(*flag.FlagSet), body func(*App) error) error {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	cfg.flags(fs)
+	if bind != nil {
+		bind(fs)
+	}
 	if err := fs.Parse(args); err != nil {
 		return err
+	}
+	if fs.NArg() > 0 {
+		return fmt.Errorf("%s: unexpected argument %q", name, fs.Arg(0))
 	}
 	app := NewApp(cfg)
 	defer app.Close()
 	if err := app.openForTool(ctx); err != nil {
 		return err
 	}
-	app.log.Info("schema up to date")
-	return nil
+	return body(app)
+}
+
+func cmdMigrate(ctx context.Context, cfg Config, args []string) error {
+	return runTool(ctx, cfg, "migrate", args, nil, func(app *App) error {
+		app.log.Info("schema up to date")
+		return nil
+	})
 }
 
 func cmdKey(ctx context.Context, cfg Config, args []string) error {
 	if len(args) == 0 || args[0] != "create" {
 		return fmt.Errorf("usage: rotorwright key create --name N --role R")
 	}
-	fs := flag.NewFlagSet("key create", flag.ContinueOnError)
-	cfg.flags(fs)
-	name := fs.String("name", "", "who or what holds the key")
-	role := fs.String("role", "", "viewer, pilot, technician or admin")
-	if err := fs.Parse(args[1:]); err != nil {
-		return err
-	}
-	app := NewApp(cfg)
-	defer app.Close()
-	if err := app.openForTool(ctx); err != nil {
-		return err
-	}
-	ctx = store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})
-	_, token, err := app.DB.CreateKey(ctx, *name, fleet.Role(*role))
-	if err != nil {
-		return fmt.Errorf("%s", fleet.ErrorMessage(err)+fieldSuffix(err))
-	}
-	fmt.Println(token)
-	return nil
+	var name, role string
+	return runTool(ctx, cfg, "key create", args[1:], func(fs *flag.FlagSet) {
+		fs.StringVar(&name, "name", "", "who or what holds the key")
+		fs.StringVar(&role, "role", "", "viewer, pilot, technician or admin")
+	}, func(app *App) error {
+		ctx := store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})
+		_, token, err := app.DB.CreateKey(ctx, name, fleet.Role(role))
+		if err != nil {
+			return fmt.Errorf("%s", fleet.ErrorMessage(err)+fieldSuffix(err))
+		}
+		fmt.Println(token)
+		return nil
+	})
 }
 
 func fieldSuffix(err error) string {

@@ -69,14 +69,9 @@ func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress
 		{"pack checks", l.loadPackChecks},
 		{"inspections", l.loadInspections},
 		{"part statuses", l.loadStatuses},
-		{"health", func(*sim.Scenario) error {
-			n, err := health.New(l.db).Recompute(l.ctx, nil)
-			progress("demo: health computed for %d parts and airframes", n)
-			return err
-		}},
-		{"due list", func(*sim.Scenario) error {
-			n, err := schedule.NewProgramme(l.db, health.New(l.db)).RecomputeFleet(l.ctx)
-			progress("demo: due list computed, %d items", n)
+		{"health and due list", func(*sim.Scenario) error {
+			r, err := schedule.NewProgramme(l.db, health.New(l.db)).RecomputeAll(l.ctx)
+			progress("demo: health of %d parts and airframes and %d due items computed", r.HealthViews, r.DueItems)
 			return err
 		}},
 	}
