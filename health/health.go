@@ -7,7 +7,6 @@ package health
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"time"
 
@@ -93,19 +92,6 @@ func (s *Service) Part(ctx context.Context, partID string) (*View, error) {
 		return nil, err
 	}
 	return v, s.DB.SavePartHealth(ctx, p.ID, v.Status, v, now)
-}
-
-// Stored returns the stored view, computing it when there is none.
-func (s *Service) Stored(ctx context.Context, partID string) (json.RawMessage, error) {
-	raw, err := s.DB.PartHealth(ctx, partID)
-	if fleet.ErrorCode(err) == fleet.ENOTFOUND {
-		v, err := s.Part(ctx, partID)
-		if err != nil {
-			return nil, err
-		}
-		return json.Marshal(v)
-	}
-	return raw, err
 }
 
 // Refresh recomputes the health of everything a flight touched: its motors,
