@@ -25,6 +25,9 @@ type AuditEntry struct {
 	EntityID  string          `json:"entity_id"`
 	Before    json.RawMessage `json:"before"`
 	After     json.RawMessage `json:"after"`
+	// PrevHash and Hash chain the rows (hex SHA-256; see VerifyAudit).
+	PrevHash string `json:"prev_hash"`
+	Hash     string `json:"hash"`
 }
 
 // AuditFilter narrows the audit listing.
@@ -45,7 +48,8 @@ func (db *DB) Audit(ctx context.Context, f AuditFilter, p Page) ([]*AuditEntry, 
 		}
 	}
 	rows, err := db.pool.Query(ctx, `
-		SELECT id, at, actor, actor_name, request_id, method, route, entity, entity_id, before, after
+		SELECT id, at, actor, actor_name, request_id, method, route, entity, entity_id, before, after,
+			encode(prev_hash, 'hex'), encode(hash, 'hex')
 		FROM audit_log
 		WHERE id > $1 AND ($2 = '' OR entity = $2) AND ($3 = '' OR entity_id = $3)
 		ORDER BY id LIMIT $4`, after, f.Entity, f.EntityID, p.Limit+1)
@@ -55,7 +59,7 @@ func (db *DB) Audit(ctx context.Context, f AuditFilter, p Page) ([]*AuditEntry, 
 	list, err := collect(rows, func(r pgx.Row) (*AuditEntry, error) {
 		var e AuditEntry
 		return &e, r.Scan(&e.ID, &e.At, &e.Actor, &e.ActorName, &e.RequestID, &e.Method, &e.Route,
-			&e.Entity, &e.EntityID, &e.Before, &e.After)
+			&e.Entity, &e.EntityID, &e.Before, &e.After, &e.PrevHash, &e.Hash)
 	})
 	if err != nil {
 		return nil, "", err

@@ -21,6 +21,7 @@ Usage:
   rotorwright reanalyze                        recompute every stored log's figures with the current model
   rotorwright recompute                        recompute the health of every part and airframe, and the due list
   rotorwright due [--all]                      print the due list (overdue and due soon first)
+  rotorwright audit verify [--anchor HEAD]     check the audit log's hash chain; names the first bad row
 
 Environment: DATABASE_URL, ROTORWRIGHT_HOME (default ./.rotorwright), ROTORWRIGHT_ADDR
 (default 127.0.0.1:8080), ROTORWRIGHT_LOG_LEVEL (debug, info, warn, error).
@@ -62,6 +63,8 @@ func run(ctx context.Context, args []string) error {
 		return cmdRecompute(ctx, cfg, args[1:])
 	case "due":
 		return cmdDue(ctx, cfg, args[1:])
+	case "audit":
+		return cmdAudit(ctx, cfg, args[1:])
 	case "help", "-h", "--help":
 		fmt.Print(usage)
 		return nil
