@@ -3,8 +3,8 @@ package main
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
+	"io"
 	"log/slog"
 	"net"
 	"net/http"
@@ -24,6 +24,8 @@ import (
 // App is the wired service: database (embedded or given), store and API.
 type App struct {
 	cfg     Config
+	out     io.Writer // command output (tokens, tables, summaries)
+	errOut  io.Writer // progress for people at a terminal
 	log     *slog.Logger
 	cluster *pglocal.Cluster
 	DB      *store.DB
@@ -32,10 +34,15 @@ type App struct {
 	server *http.Server
 }
 
-// NewApp makes an unopened app.
-func NewApp(cfg Config) *App {
-	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: cfg.LogLevel}))
-	return &App{cfg: cfg, log: log, Addr: make(chan string, 1)}
+// NewApp makes an unopened app that writes to the process's stdout and
+// stderr.
+func NewApp(cfg Config) *App { return newApp(cfg, os.Stdout, os.Stderr) }
+
+// newApp makes an unopened app: command output goes to stdout, the log to
+// stderr.
+func newApp(cfg Config, stdout, stderr io.Writer) *App {
+	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: cfg.LogLevel}))
+	return &App{cfg: cfg, out: stdout, errOut: stderr, log: log, Addr: make(chan string, 1)}
 }
 
 // Open starts the embedded database when no URL is configured, connects and
@@ -200,99 +207,4 @@ func (a *App) Close() error {
 		return a.cluster.Stop(ctx)
 	}
 	return nil
-}
-
-func cmdServe(ctx context.Context, cfg Config, args []string, demo bool) error {
-	name := "serve"
-	if demo {
-		name = "demo"
-	}
-	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	cfg.flags(fs)
-	months := 4
-	if demo {
-		fs.IntVar(&months, "months", months, "months of simulated flights in the demo fleet")
-	}
-	if err := fs.Parse(args); err != nil {
-		return err
-	}
-	app := NewApp(cfg)
-	defer app.Close()
-	start := time.Now()
-	if err := app.Open(ctx); err != nil {
-		return err
-	}
-	if !demo {
-		return app.Run(ctx)
-	}
-	token, err := runDemo(ctx, app, months)
-	if err != nil {
-		return err
-	}
-	errc := make(chan error, 1)
-	go func() { errc <- app.Run(ctx) }()
-	select {
-	case addr := <-app.Addr:
-		printDemoBanner(addr, token, time.Since(start))
-	case err := <-errc:
-		return err
-	}
-	return <-errc
-}
-
-// runTool runs a command that needs the database: it parses the command's
-// flags (bind adds its own to the configuration flags), opens the app next
-// to any serving instance, runs body and closes the app.
-func runTool(ctx context.Context, cfg Config, name string, args []string, bind func(*flag.FlagSet), body func(*App) error) error {
-	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	cfg.flags(fs)
-	if bind != nil {
-		bind(fs)
-	}
-	if err := fs.Parse(args); err != nil {
-		return err
-	}
-	if fs.NArg() > 0 {
-		return fmt.Errorf("%s: unexpected argument %q", name, fs.Arg(0))
-	}
-	app := NewApp(cfg)
-	defer app.Close()
-	if err := app.openForTool(ctx); err != nil {
-		return err
-	}
-	return body(app)
-}
-
-func cmdMigrate(ctx context.Context, cfg Config, args []string) error {
-	return runTool(ctx, cfg, "migrate", args, nil, func(app *App) error {
-		app.log.Info("schema up to date")
-		return nil
-	})
-}
-
-func cmdKey(ctx context.Context, cfg Config, args []string) error {
-	if len(args) == 0 || args[0] != "create" {
-		return fmt.Errorf("usage: rotorwright key create --name N --role R")
-	}
-	var name, role string
-	return runTool(ctx, cfg, "key create", args[1:], func(fs *flag.FlagSet) {
-		fs.StringVar(&name, "name", "", "who or what holds the key")
-		fs.StringVar(&role, "role", "", "viewer, pilot, technician or admin")
-	}, func(app *App) error {
-		ctx := store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})
-		_, token, err := app.DB.CreateKey(ctx, name, fleet.Role(role))
-		if err != nil {
-			return fmt.Errorf("%s", fleet.ErrorMessage(err)+fieldSuffix(err))
-		}
-		fmt.Println(token)
-		return nil
-	})
-}
-
-func fieldSuffix(err error) string {
-	var fe *fleet.Error
-	if errors.As(err, &fe) && fe.Field != "" {
-		return " (" + fe.Field + ")"
-	}
-	return ""
 }

@@ -3,10 +3,10 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
-	"os"
+
+	"github.com/spf13/cobra"
 
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -49,15 +49,15 @@ func auditVerify(ctx context.Context, db *store.DB, o auditVerifyOptions, out, e
 	return nil
 }
 
-func cmdAudit(ctx context.Context, cfg Config, args []string) error {
-	if len(args) == 0 || args[0] != "verify" {
-		return fmt.Errorf("usage: rotorwright audit verify [--anchor HEAD] [--json]")
-	}
+func (c *cli) auditCmd() *cobra.Command {
 	var o auditVerifyOptions
-	return runTool(ctx, cfg, "audit verify", args[1:], func(fs *flag.FlagSet) {
-		fs.StringVar(&o.Anchor, "anchor", "", "a head hash printed by an earlier verify; fail unless it is still in the chain")
-		fs.BoolVar(&o.JSON, "json", false, "print the result as JSON")
-	}, func(app *App) error {
-		return auditVerify(ctx, app.DB, o, os.Stdout, os.Stderr)
-	})
+	verify := &cobra.Command{
+		Use:   "verify",
+		Short: "Check the audit log's hash chain; names the first bad row",
+	}
+	verify.Flags().StringVar(&o.Anchor, "anchor", "", "a head hash printed by an earlier verify; fail unless it is still in the chain")
+	verify.Flags().BoolVar(&o.JSON, "json", false, "print the result as JSON")
+	return group("audit", "Check the audit log", c.tool(verify, func(ctx context.Context, app *App, _ []string) error {
+		return auditVerify(ctx, app.DB, o, app.out, app.errOut)
+	}))
 }

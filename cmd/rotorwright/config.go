@@ -1,11 +1,12 @@
 package main
 
 import (
-	"flag"
 	"fmt"
 	"log/slog"
 	"os"
 	"strings"
+
+	"github.com/spf13/pflag"
 )
 
 // Config is the service configuration, from the environment and flags,
@@ -48,14 +49,46 @@ func ConfigFromEnv() (Config, error) {
 	return c, nil
 }
 
-// flags binds the flags that override the environment on serve and demo.
-func (c *Config) flags(fs *flag.FlagSet) {
-	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (127.0.0.1:0 picks a free port)")
-	fs.StringVar(&c.Home, "home", c.Home, "data folder for the embedded database")
-	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (empty: embedded database)")
-	fs.Func("log-level", "debug, info, warn or error", func(s string) error {
-		return c.LogLevel.UnmarshalText([]byte(strings.ToUpper(s)))
-	})
+// bindDatabase adds the flags of every command that opens the database.
+func (c *Config) bindDatabase(fs *pflag.FlagSet) {
+	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: the embedded cluster)")
+	fs.StringVar(&c.Home, "home", c.Home, "data folder of the embedded cluster (env ROTORWRIGHT_HOME)")
+	fs.Var((*levelFlag)(&c.LogLevel), "log-level", "debug, info, warn or error (env ROTORWRIGHT_LOG_LEVEL)")
+	hideDefault(fs, "database-url")
+}
+
+// hideDefault keeps a value taken from the environment out of --help: a
+// database URL or webhook URL may carry a password or token.
+func hideDefault(fs *pflag.FlagSet, name string) {
+	f := fs.Lookup(name)
+	f.DefValue = ""
+	if _, ok := f.Value.(pflag.SliceValue); ok {
+		f.DefValue = "[]" // what pflag takes for an empty list
+	}
+}
+
+// bindServe adds the flags of the commands that serve the API.
+func (c *Config) bindServe(fs *pflag.FlagSet) {
+	c.bindDatabase(fs)
+	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address; 127.0.0.1:0 picks a free port (env ROTORWRIGHT_ADDR)")
+	fs.StringSliceVar(&c.Webhooks, "webhook", c.Webhooks, "URL for due-status notifications, repeatable (env ROTORWRIGHT_WEBHOOKS, comma-separated)")
+	fs.BoolVar(&c.WebhooksAllowPrivate, "webhooks-allow-private", c.WebhooksAllowPrivate, "allow webhook URLs on private addresses (env ROTORWRIGHT_WEBHOOKS_ALLOW_PRIVATE)")
+	fs.BoolVar(&c.WebhooksAllowLoopback, "webhooks-allow-loopback", c.WebhooksAllowLoopback, "allow webhook URLs on loopback addresses (env ROTORWRIGHT_WEBHOOKS_ALLOW_LOOPBACK)")
+	fs.StringVar(&c.CronRecompute, "cron-recompute", c.CronRecompute, "cron schedule of the due-list recompute, default */15 * * * * (env ROTORWRIGHT_CRON_RECOMPUTE)")
+	hideDefault(fs, "webhook")
+	fs.StringVar(&c.CronNightly, "cron-nightly", c.CronNightly, "cron schedule of the health and due-list recompute, default 0 2 * * * (env ROTORWRIGHT_CRON_NIGHTLY)")
+}
+
+// levelFlag is a slog.Level as a flag value.
+type levelFlag slog.Level
+
+func (l *levelFlag) String() string { return (*slog.Level)(l).String() }
+func (l *levelFlag) Type() string   { return "level" }
+func (l *levelFlag) Set(s string) error {
+	if err := (*slog.Level)(l).UnmarshalText([]byte(s)); err != nil {
+		return fmt.Errorf("%q is not debug, info, warn or error", s)
+	}
+	return nil
 }
 
 func envOr(k, def string) string {

@@ -3,7 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
-	"os"
+	"io"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -41,8 +41,8 @@ func runDemo(ctx context.Context, app *App, months int) (string, error) {
 	return token, err
 }
 
-func printDemoBanner(addr, token string, took time.Duration) {
-	fmt.Fprintf(os.Stdout, `
+func printDemoBanner(w io.Writer, addr, token string, took time.Duration) {
+	fmt.Fprintf(w, `
 Rotorwright demo is up (ready in %s).
   Board:    http://%s/  (paste the token)
   API:      http://%s/v1/airframes

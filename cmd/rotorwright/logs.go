@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -12,6 +11,7 @@ import (
 	"time"
 
 	"github.com/schollz/progressbar/v3"
+	"github.com/spf13/cobra"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
@@ -20,27 +20,32 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
-// cmdImport bulk-imports a folder of flight logs for one airframe, with a
-// progress bar and a summary; refused files are listed with the reason.
-func cmdImport(ctx context.Context, cfg Config, args []string) error {
+func (c *cli) importCmd() *cobra.Command {
 	var code, pilot, override string
-	// The folder may come before the flags, as the usage line shows it.
-	var dir string
-	if len(args) > 0 && !strings.HasPrefix(args[0], "-") {
-		dir, args = args[0], args[1:]
+	cmd := &cobra.Command{
+		Use:   "import DIR --airframe CODE",
+		Short: "Ingest every *.csv flight log in a folder, with a progress bar and a summary",
+		Long: `Ingest every *.csv flight log in DIR for one airframe, with a progress bar and
+a summary. A log already stored is reported as present, not duplicated; a bad
+file is listed with its line and column and the others are still imported.`,
+		Args: func(_ *cobra.Command, args []string) error {
+			if len(args) != 1 {
+				return usagef("import takes one folder of logs, got %d arguments", len(args))
+			}
+			return nil
+		},
+		PreRunE: func(*cobra.Command, []string) error {
+			if code == "" {
+				return usagef("--airframe is required")
+			}
+			return nil
+		},
 	}
-	if dir == "" {
-		return errors.New("usage: rotorwright import DIR --airframe CODE [--pilot NAME] [--override REASON]")
-	}
-	return runTool(ctx, cfg, "import", args, func(fs *flag.FlagSet) {
-		fs.StringVar(&code, "airframe", "", "tail code of the airframe the logs belong to")
-		fs.StringVar(&pilot, "pilot", "not recorded", "pilot to record on each flight")
-		fs.StringVar(&override, "override", "", "record the flights even if the airframe is not ready, for this reason")
-	}, func(app *App) error {
-		if code == "" {
-			return errors.New("usage: rotorwright import DIR --airframe CODE [--pilot NAME] [--override REASON]")
-		}
-		return importDir(ctx, app, dir, code, pilot, override)
+	cmd.Flags().StringVar(&code, "airframe", "", "tail code of the airframe the logs belong to")
+	cmd.Flags().StringVar(&pilot, "pilot", "not recorded", "pilot to record on each flight")
+	cmd.Flags().StringVar(&override, "override", "", "record the flights even if the airframe is not ready, for this reason")
+	return c.tool(cmd, func(ctx context.Context, app *App, args []string) error {
+		return importDir(ctx, app, args[0], code, pilot, override)
 	})
 }
 
@@ -69,7 +74,7 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override string)
 	if override != "" {
 		reasonPtr = &override
 	}
-	bar := progressbar.NewOptions(len(files), progressbar.OptionSetWriter(os.Stderr),
+	bar := progressbar.NewOptions(len(files), progressbar.OptionSetWriter(app.errOut),
 		progressbar.OptionSetDescription("importing "+code), progressbar.OptionShowCount(),
 		progressbar.OptionSetPredictTime(true), progressbar.OptionClearOnFinish())
 	var imported, present int
@@ -88,11 +93,11 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override string)
 		_ = bar.Add(1)
 	}
 	_ = bar.Finish()
-	fmt.Printf("%s: %d imported, %d already present, %d refused (%d files in %s)\n",
+	fmt.Fprintf(app.out, "%s: %d imported, %d already present, %d refused (%d files in %s)\n",
 		code, imported, present, len(refused), len(files), time.Since(start).Round(time.Millisecond))
 	if len(refused) > 0 {
-		fmt.Println("refused:")
-		fmt.Println(strings.Join(refused, "\n"))
+		fmt.Fprintln(app.out, "refused:")
+		fmt.Fprintln(app.out, strings.Join(refused, "\n"))
 		return fmt.Errorf("%d of %d logs refused", len(refused), len(files))
 	}
 	return nil
@@ -122,28 +127,30 @@ func reason(err error) string {
 	return fe.Message
 }
 
-// cmdReanalyze recomputes every stored log's figures with the current model,
-// then the health views and due list that rest on them.
-func cmdReanalyze(ctx context.Context, cfg Config, args []string) error {
-	return runTool(ctx, cfg, "reanalyze", args, nil, func(app *App) error {
-		ctx := store.WithActor(ctx, store.Actor{Name: "reanalyze", Method: "CLI", Route: "reanalyze"})
+func (c *cli) reanalyzeCmd() *cobra.Command {
+	return c.tool(&cobra.Command{
+		Use:   "reanalyze",
+		Short: "Recompute every stored log's figures with the current model, then health and the due list",
+	}, func(ctx context.Context, app *App, _ []string) error {
+		ctx = store.WithActor(ctx, store.Actor{Name: "reanalyze", Method: "CLI", Route: "reanalyze"})
 		start := time.Now()
 		in := &ingest.Ingester{DB: app.DB}
-		n, err := in.Reanalyze(ctx, func(done int) { fmt.Fprintf(os.Stderr, "\rreanalysed %d logs", done) })
-		fmt.Fprintln(os.Stderr)
+		n, err := in.Reanalyze(ctx, func(done int) { fmt.Fprintf(app.errOut, "\rreanalysed %d logs", done) })
+		fmt.Fprintln(app.errOut)
 		if err != nil {
 			return err
 		}
-		fmt.Printf("reanalysed %d stored logs with analysis version %d in %s\n", n, ingest.AnalysisVersion,
+		fmt.Fprintf(app.out, "reanalysed %d stored logs with analysis version %d in %s\n", n, ingest.AnalysisVersion,
 			time.Since(start).Round(time.Millisecond))
 		return recomputeAll(ctx, app)
 	})
 }
 
-// cmdRecompute recomputes the health of every motor, propeller and pack,
-// every airframe's trends and the due list.
-func cmdRecompute(ctx context.Context, cfg Config, args []string) error {
-	return runTool(ctx, cfg, "recompute", args, nil, func(app *App) error { return recomputeAll(ctx, app) })
+func (c *cli) recomputeCmd() *cobra.Command {
+	return c.tool(&cobra.Command{
+		Use:   "recompute",
+		Short: "Recompute the health of every part and airframe, and the due list",
+	}, func(ctx context.Context, app *App, _ []string) error { return recomputeAll(ctx, app) })
 }
 
 func recomputeAll(ctx context.Context, app *App) error {
@@ -151,39 +158,7 @@ func recomputeAll(ctx context.Context, app *App) error {
 	if err != nil {
 		return err
 	}
-	fmt.Printf("recomputed health of %d parts and airframes in %s\n", r.HealthViews, r.HealthTook.Round(time.Millisecond))
-	fmt.Printf("recomputed the due list (%d items) in %s\n", r.DueItems, r.DueTook.Round(time.Millisecond))
+	fmt.Fprintf(app.out, "recomputed health of %d parts and airframes in %s\n", r.HealthViews, r.HealthTook.Round(time.Millisecond))
+	fmt.Fprintf(app.out, "recomputed the due list (%d items) in %s\n", r.DueItems, r.DueTook.Round(time.Millisecond))
 	return nil
-}
-
-// cmdDue prints the due list (overdue and due soon first) for scripts and
-// people at a terminal.
-func cmdDue(ctx context.Context, cfg Config, args []string) error {
-	var all bool
-	return runTool(ctx, cfg, "due", args, func(fs *flag.FlagSet) {
-		fs.BoolVar(&all, "all", false, "list items that are ok too")
-	}, func(app *App) error {
-		if _, err := schedule.NewProgramme(app.DB, health.New(app.DB)).RecomputeFleet(ctx); err != nil {
-			return err
-		}
-		items, err := app.DB.DueItems(ctx, store.DueFilter{})
-		if err != nil {
-			return err
-		}
-		fmt.Printf("%-9s %-10s %-16s %-40s %s\n", "STATUS", "GROUNDING", "SUBJECT", "RULE", "REASON / FORECAST")
-		for _, d := range items {
-			if d.Status == fleet.DueOK && !all {
-				continue
-			}
-			fc, g := "", ""
-			if d.ForecastDate != nil {
-				fc = " / " + d.ForecastDate.Format("2006-01-02")
-			}
-			if d.Grounding {
-				g = "grounding"
-			}
-			fmt.Printf("%-9s %-10s %-16s %-40s %s%s\n", d.Status, g, d.Subject, d.RuleName, d.Reason, fc)
-		}
-		return nil
-	})
 }

@@ -57,19 +57,16 @@ func TestImportAndReanalyze(t *testing.T) {
 
 	// The airframe has no motors or propellers fitted: not ready, so every
 	// log is refused unless the import says why it records them anyway.
-	var runErr error
-	out := captureStdout(t, func() {
-		runErr = run(ctx, []string{"import", dir, "--airframe", "SIM-01", "--database-url", url})
-	})
-	if runErr == nil || !strings.Contains(out, "not ready to fly") {
-		t.Fatalf("import of logs for an unready airframe: %v\n%s", runErr, out)
+	// Flags after the folder here, before it the second time: both orders
+	// are one command line.
+	out, errOut, code := runCLI(t, "import", dir, "--airframe", "SIM-01", "--database-url", url)
+	if code != exitFailure || !strings.Contains(out, "not ready to fly") {
+		t.Fatalf("import of logs for an unready airframe: exit %d\n%s\n%s", code, out, errOut)
 	}
-	out = captureStdout(t, func() {
-		runErr = run(ctx, []string{"import", dir, "--airframe", "SIM-01", "--override", "bench logs from the test rig",
-			"--database-url", url})
-	})
-	if runErr == nil || !strings.Contains(runErr.Error(), "1 of 4 logs refused") {
-		t.Fatalf("import error %v, want 1 of 4 refused", runErr)
+	out, errOut, code = runCLI(t, "import", "--airframe", "SIM-01", "--override", "bench logs from the test rig",
+		"--database-url", url, dir)
+	if code != exitFailure || !strings.Contains(errOut, "1 of 4 logs refused") {
+		t.Fatalf("import: exit %d, stderr %q, want 1 of 4 refused", code, errOut)
 	}
 	if !strings.Contains(out, "2 imported, 1 already present, 1 refused") ||
 		!strings.Contains(out, "flight-d-bad.csv: line 3, column pack_a") {
@@ -85,11 +82,9 @@ func TestImportAndReanalyze(t *testing.T) {
 	if _, err := db.Pool().Exec(ctx, `UPDATE flight_metrics SET charge_mah = 1, metrics = '{}' WHERE flight_id = $1`, id); err != nil {
 		t.Fatal(err)
 	}
-	out = captureStdout(t, func() {
-		runErr = run(ctx, []string{"reanalyze", "--database-url", url})
-	})
-	if runErr != nil || !strings.Contains(out, "reanalysed 2 stored logs") {
-		t.Fatalf("reanalyze: %v\n%s", runErr, out)
+	out, errOut, code = runCLI(t, "reanalyze", "--database-url", url)
+	if code != 0 || !strings.Contains(out, "reanalysed 2 stored logs") {
+		t.Fatalf("reanalyze: exit %d\n%s\n%s", code, out, errOut)
 	}
 	var got float64
 	if err := db.Pool().QueryRow(ctx, `SELECT charge_mah FROM flight_metrics WHERE flight_id = $1`, id).Scan(&got); err != nil {

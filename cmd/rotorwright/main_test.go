@@ -4,11 +4,9 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"io"
 	"net/http"
 	"os"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
@@ -94,11 +92,10 @@ func TestEmbeddedDefault(t *testing.T) {
 func TestKeyCreatePrintsTokenOnly(t *testing.T) {
 	t.Parallel()
 	url := pgtest.NewDB(t)
-	out := captureStdout(t, func() {
-		if err := run(context.Background(), []string{"key", "create", "--name", "ops script", "--role", "viewer", "--database-url", url}); err != nil {
-			t.Fatal(err)
-		}
-	})
+	out, errOut, code := runCLI(t, "key", "create", "--name", "ops script", "--role", "viewer", "--database-url", url)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
 	token := strings.TrimSpace(out)
 	if !strings.HasPrefix(token, "rw_") || strings.ContainsAny(token, " \n") || len(token) < 40 {
 		t.Fatalf("stdout %q is not a lone token", out)
@@ -110,33 +107,17 @@ func TestKeyCreatePrintsTokenOnly(t *testing.T) {
 	if s := get(t, "http://"+addr+"/v1/keys", token, nil); s != 403 {
 		t.Fatalf("a viewer token reached the admin route: %d", s)
 	}
-	if err := run(context.Background(), []string{"key", "create", "--name", "x", "--role", "pilot-in-command", "--database-url", url}); err == nil ||
-		!strings.Contains(err.Error(), "role") {
-		t.Fatalf("bad role: err = %v, want it to name the role", err)
+	_, errOut, code = runCLI(t, "key", "create", "--name", "x", "--role", "pilot-in-command", "--database-url", url)
+	if code != exitFailure || !strings.Contains(errOut, "role") {
+		t.Fatalf("bad role: exit %d, stderr %q; want 1 and a message naming the role", code, errOut)
 	}
 }
 
-// captureStdout runs fn with os.Stdout redirected, one test at a time.
-var stdoutMu sync.Mutex
-
-func captureStdout(t *testing.T, fn func()) string {
+// runCLI runs the command line in this process and returns what it wrote
+// and its exit status.
+func runCLI(t *testing.T, args ...string) (stdout, stderr string, code int) {
 	t.Helper()
-	stdoutMu.Lock()
-	defer stdoutMu.Unlock()
-	r, w, err := os.Pipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	old := os.Stdout
-	os.Stdout = w
-	done := make(chan []byte)
-	go func() {
-		var b bytes.Buffer
-		io.Copy(&b, r)
-		done <- b.Bytes()
-	}()
-	defer func() { os.Stdout = old }()
-	fn()
-	w.Close()
-	return string(<-done)
+	var out, errOut bytes.Buffer
+	code = execute(t.Context(), args, &out, &errOut)
+	return out.String(), errOut.String(), code
 }
