@@ -117,8 +117,8 @@ func (db *DB) UpdateAirframe(ctx context.Context, id string, version int, fn fun
 		if before.RetiredAt != nil {
 			return fleet.Errorf(fleet.ECONFLICT, "airframe %s is retired", before.Code)
 		}
-		a := *before
-		if err := fn(&a); err != nil {
+		a := clone(before)
+		if err := fn(a); err != nil {
 			return err
 		}
 		if err := a.Validate(); err != nil {

@@ -108,7 +108,7 @@ func (db *DB) UpdateEvent(ctx context.Context, id string, version int, p EventPa
 		if before.Version != version {
 			return versionMismatch()
 		}
-		e := *before
+		e := clone(before)
 		if p.Detail != nil {
 			e.Detail = *p.Detail
 		}

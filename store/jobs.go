@@ -86,8 +86,8 @@ func (db *DB) UpdateJob(ctx context.Context, id string, version int, fn func(*fl
 		if before.Version != version {
 			return versionMismatch()
 		}
-		j := *before
-		if err := fn(&j); err != nil {
+		j := clone(before)
+		if err := fn(j); err != nil {
 			return err
 		}
 		if err := j.Validate(); err != nil {

@@ -92,7 +92,7 @@ func (db *DB) RevokeKey(ctx context.Context, id string) (*fleet.APIKey, error) {
 		if before.RevokedAt != nil {
 			return fleet.Errorf(fleet.ECONFLICT, "the key is already revoked")
 		}
-		out = before
+		out = *clone(&before)
 		now := time.Now()
 		if err := tx.QueryRow(ctx, `UPDATE api_keys SET revoked_at = $2 WHERE id = $1 RETURNING revoked_at`, id, now).
 			Scan(&out.RevokedAt); err != nil {

@@ -112,8 +112,8 @@ func (db *DB) UpdatePart(ctx context.Context, id string, version int, fn func(*f
 		if before.Version != version {
 			return versionMismatch()
 		}
-		p := *before
-		if err := fn(&p); err != nil {
+		p := clone(before)
+		if err := fn(p); err != nil {
 			return err
 		}
 		if p.Kind != before.Kind {

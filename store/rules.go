@@ -83,8 +83,8 @@ func (db *DB) UpdateRule(ctx context.Context, id string, version int, fn func(*f
 		if before.Version != version {
 			return versionMismatch()
 		}
-		r := *before
-		if err := fn(&r); err != nil {
+		r := clone(before)
+		if err := fn(r); err != nil {
 			return err
 		}
 		if err := r.Validate(); err != nil {
@@ -96,7 +96,7 @@ func (db *DB) UpdateRule(ctx context.Context, id string, version int, fn func(*f
 				soh_below_pct = $13, ir_rise_pct = $14, efficiency_rise_pct = $15, vibration_rise_pct = $16,
 				on_events = $17, warn_at = $18, grounding = $19, action = $20, enabled = $21,
 				version = version + 1, updated_at = now()
-			WHERE id = $1 RETURNING `+ruleCols, append([]any{id}, ruleArgs(&r)...)...))
+			WHERE id = $1 RETURNING `+ruleCols, append([]any{id}, ruleArgs(r)...)...))
 		if err != nil {
 			return err
 		}
