@@ -44,6 +44,10 @@ func (s *Server) idempotency(limit int64) gin.HandlerFunc {
 			s.fail(c, fleet.FieldError("Idempotency-Key", "must be at most 255 characters"))
 			return
 		}
+		if err := headerText("Idempotency-Key", key); err != nil {
+			s.fail(c, err)
+			return
+		}
 		body, err := io.ReadAll(http.MaxBytesReader(c.Writer, c.Request.Body, limit))
 		var mbe *http.MaxBytesError
 		if errors.As(err, &mbe) {

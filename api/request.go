@@ -48,6 +48,9 @@ func strictUnmarshal(b []byte, v any) error {
 	if len(bytes.TrimSpace(b)) == 0 {
 		return fleet.Errorf(fleet.EINVALID, "the request body is empty; send a JSON object")
 	}
+	if err := checkJSONText(b); err != nil {
+		return err
+	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(v); err != nil {
@@ -107,6 +110,9 @@ func jsonType(goType string) string {
 // status...) cannot be assigned: the patch is laid over in's JSON form and
 // decoded back, and validation sees the merged whole.
 func applyMergePatch(body []byte, in any, writable ...string) error {
+	if err := checkJSONText(body); err != nil {
+		return err
+	}
 	var patch map[string]json.RawMessage
 	if err := json.Unmarshal(body, &patch); err != nil || patch == nil {
 		return fleet.Errorf(fleet.EINVALID, "send a JSON object")
@@ -258,6 +264,9 @@ func (s *Server) patchInput(c *gin.Context, what string) (id string, version int
 	}
 	if err == nil {
 		body, err = s.readBody(c)
+	}
+	if err == nil {
+		err = checkJSONText(body) // before the record is read: a bad body is 400 whatever the id
 	}
 	if err != nil {
 		s.fail(c, err)

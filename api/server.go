@@ -151,7 +151,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	e := gin.New()
 	e.HandleMethodNotAllowed = true
 	e.ContextWithFallback = true
-	e.Use(s.metrics.observe(), s.recovery(), s.requestID())
+	e.Use(s.metrics.observe(), s.recovery(), s.requestID(), s.checkQuery())
 	for _, r := range Routes {
 		h := r.handler
 		chain := []gin.HandlerFunc{}

@@ -190,8 +190,8 @@ func (p *parser) refuse(line int, col, msg string) *fleet.Error {
 
 // meta reads a comment before the header; only `key: value` forms are metadata.
 func (p *parser) meta(b []byte) error {
-	if !utf8.Valid(b) {
-		return p.refuse(p.line, "", "comment is not valid UTF-8")
+	if !utf8.Valid(b) || bytes.IndexByte(b, 0) >= 0 {
+		return p.refuse(p.line, "", "comment is not valid UTF-8 or holds a NUL byte")
 	}
 	s := strings.TrimSpace(string(b))
 	k, v, ok := strings.Cut(s, ":")
@@ -231,8 +231,8 @@ func (p *parser) meta(b []byte) error {
 
 func (p *parser) parseHeader(b []byte) error {
 	p.header = p.line
-	if !utf8.Valid(b) {
-		return p.refuse(p.line, "", "header is not valid UTF-8")
+	if !utf8.Valid(b) || bytes.IndexByte(b, 0) >= 0 {
+		return p.refuse(p.line, "", "header is not valid UTF-8 or holds a NUL byte")
 	}
 	names := strings.Split(string(b), ",")
 	l := p.log

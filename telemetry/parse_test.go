@@ -179,6 +179,9 @@ func TestParseRefusals(t *testing.T) {
 		{"empty input", "", Limits{}, 1, ""},
 		{"no data rows", "# c\n" + hdr + "# end\n", Limits{}, 3, ""},
 		{"invalid UTF-8 header", "t_s,pack_v,pack_a,\xff\n0,1,1,1\n", Limits{}, 1, ""},
+		{"NUL in a header name", "t_s,pack_v,pack_a,n\x00\n0,1,1,1\n", Limits{}, 1, ""},
+		{"NUL in metadata", "# airframe: RW\x0007\n" + hdr + "0,12,1,0\n", Limits{}, 1, ""},
+		{"invalid UTF-8 in metadata", "# packs: P\xff1\n" + hdr + "0,12,1,0\n", Limits{}, 1, ""},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
