@@ -51,6 +51,12 @@ func strictUnmarshal(b []byte, v any) error {
 	if err := checkJSONText(b); err != nil {
 		return err
 	}
+	var doc map[string]json.RawMessage
+	if json.Unmarshal(b, &doc) == nil {
+		if err := checkTimes(doc, v); err != nil {
+			return err
+		}
+	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(v); err != nil {
@@ -137,6 +143,9 @@ func applyMergePatch(body []byte, in any, writable ...string) error {
 			return fleet.FieldError(k, "is not a known member")
 		}
 		doc[k] = v
+	}
+	if err := checkNulls(patch, in); err != nil {
+		return err
 	}
 	merged, err := json.Marshal(doc)
 	if err != nil {

@@ -73,28 +73,33 @@ func (r *ServiceRule) Validate() error {
 			return err
 		}
 	}
+	// Upper bounds are generous plausibility limits (common practice, not
+	// from any standard): a limit beyond them is a typing error, and 1e308
+	// would overflow the arithmetic of the due list.
 	positive := []struct {
-		f string
-		v *float64
-	}{{"flight_hours", r.FlightHours}, {"revolutions", r.Revolutions}, {"bearing_pct", r.BearingPct},
-		{"cycles", r.Cycles}, {"ir_rise_pct", r.IRRisePct}, {"efficiency_rise_pct", r.EfficiencyRisePct},
-		{"vibration_rise_pct", r.VibrationRisePct}}
+		f   string
+		v   *float64
+		max float64
+	}{{"flight_hours", r.FlightHours, 100_000}, {"revolutions", r.Revolutions, 1e13},
+		{"bearing_pct", r.BearingPct, 1000}, {"cycles", r.Cycles, 100_000}, {"ir_rise_pct", r.IRRisePct, 1000},
+		{"efficiency_rise_pct", r.EfficiencyRisePct, 1000}, {"vibration_rise_pct", r.VibrationRisePct, 1000}}
 	limits := 0
 	for _, p := range positive {
 		if p.v != nil {
-			if !(*p.v > 0) {
-				return FieldError(p.f, "must be positive")
+			if !(*p.v > 0 && *p.v <= p.max) {
+				return FieldError(p.f, "must be in (0, %g]", p.max)
 			}
 			limits++
 		}
 	}
 	for _, p := range []struct {
-		f string
-		v *int
-	}{{"flights", r.Flights}, {"days", r.Days}} {
+		f   string
+		v   *int
+		max int
+	}{{"flights", r.Flights, 1_000_000}, {"days", r.Days, 36_500}} {
 		if p.v != nil {
-			if *p.v <= 0 {
-				return FieldError(p.f, "must be a positive whole number")
+			if *p.v <= 0 || *p.v > p.max {
+				return FieldError(p.f, "must be a whole number from 1 to %d", p.max)
 			}
 			limits++
 		}

@@ -29,6 +29,9 @@ func (db *DB) CreateEvent(ctx context.Context, e *fleet.Event) (*fleet.Event, er
 	if err := e.Validate(); err != nil {
 		return nil, err
 	}
+	if err := fleet.CheckTime("at", e.At, db.now()); err != nil {
+		return nil, err
+	}
 	var out *fleet.Event
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
 		var err error

@@ -25,10 +25,6 @@ type RemovalRequest struct {
 	Reason string
 }
 
-// futureSlack is how far ahead of the server clock a fit or removal may be
-// dated (clock skew between a technician's device and the server).
-const futureSlack = 5 * time.Minute
-
 const fitCols = `id, part_id, airframe_id, kind, position, lower(during), upper(during), removal_reason`
 
 func scanFit(row pgx.Row) (*fleet.Fit, error) {
@@ -43,8 +39,8 @@ func (db *DB) Fit(ctx context.Context, airframeID string, r FitRequest) (*fleet.
 	if r.At.IsZero() {
 		r.At = db.now()
 	}
-	if r.At.After(db.now().Add(futureSlack)) {
-		return nil, fleet.FieldError("at", "must not be in the future")
+	if err := fleet.CheckTime("at", r.At, db.now()); err != nil {
+		return nil, err
 	}
 	var out *fleet.Fit
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
@@ -123,8 +119,8 @@ func (db *DB) Remove(ctx context.Context, airframeID string, r RemovalRequest) (
 	if r.At.IsZero() {
 		r.At = db.now()
 	}
-	if r.At.After(db.now().Add(futureSlack)) {
-		return nil, fleet.FieldError("at", "must not be in the future")
+	if err := fleet.CheckTime("at", r.At, db.now()); err != nil {
+		return nil, err
 	}
 	var out *fleet.Fit
 	err := db.inTx(ctx, func(tx pgx.Tx) error {

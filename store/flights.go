@@ -34,8 +34,8 @@ func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight,
 	if err := f.Validate(); err != nil {
 		return nil, err
 	}
-	if f.LandingAt.After(db.now().Add(futureSlack)) {
-		return nil, fleet.FieldError("landing_at", "must not be in the future")
+	if err := checkFlightTimes(f, db.now()); err != nil {
+		return nil, err
 	}
 	var out *fleet.Flight
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
@@ -44,6 +44,14 @@ func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight,
 		return err
 	})
 	return out, err
+}
+
+// checkFlightTimes bounds a flight's take-off and landing (fleet.CheckTime).
+func checkFlightTimes(f *fleet.Flight, now time.Time) error {
+	if err := fleet.CheckTime("takeoff_at", f.TakeoffAt, now); err != nil {
+		return err
+	}
+	return fleet.CheckTime("landing_at", f.LandingAt, now)
 }
 
 // insertFlight writes the flight, its packs and the audit row in tx.

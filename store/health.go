@@ -112,8 +112,8 @@ func (db *DB) CreatePackCheck(ctx context.Context, c *PackCheck) (*PackCheck, er
 		if err != nil {
 			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id", Message: "checks are for packs; this part is a " + string(p.Kind)}
 		}
-		if c.At.After(db.now().Add(futureSlack)) {
-			return fleet.FieldError("at", "must not be in the future")
+		if err := fleet.CheckTime("at", c.At, db.now()); err != nil {
+			return err
 		}
 		if err := c.validate(specs); err != nil {
 			return err

@@ -102,8 +102,8 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 	if err := f.Validate(); err != nil {
 		return "", false, err
 	}
-	if f.LandingAt.After(db.now().Add(futureSlack)) {
-		return "", false, fleet.FieldError("landing_at", "must not be in the future")
+	if err := checkFlightTimes(f, db.now()); err != nil {
+		return "", false, err
 	}
 	if lf.Columns == nil {
 		lf.Columns = []string{}

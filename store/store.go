@@ -8,6 +8,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/google/uuid"
@@ -197,6 +198,9 @@ func translate(err error) error {
 	var pe *pgconn.PgError
 	if errors.As(err, &pe) {
 		m, known := constraintErrors[pe.ConstraintName]
+		if !known {
+			m.field = fieldOfConstraint(pe)
+		}
 		switch pe.Code {
 		case "23505", "23P01": // unique_violation, exclusion_violation
 			if !known {
@@ -214,7 +218,9 @@ func translate(err error) error {
 			}
 			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: m.field, Message: m.msg}
 		case "22P02", "22007", "22008": // bad text representation, datetime
-			return &fleet.Error{Code: fleet.EINVALID, Message: "malformed value"}
+			return &fleet.Error{Code: fleet.EINVALID, Field: pe.ColumnName, Message: "malformed value"}
+		case "22003": // numeric_value_out_of_range
+			return &fleet.Error{Code: fleet.EINVALID, Field: pe.ColumnName, Message: "a number is out of range"}
 		}
 		if pe.Code[:2] == "08" || pe.Code == "57P01" || pe.Code == "57P03" {
 			return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
@@ -226,6 +232,25 @@ func translate(err error) error {
 		return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
 	}
 	return err
+}
+
+// fieldOfConstraint names the input member behind a constraint the table
+// of known ones lacks: PostgreSQL names a single-column foreign key or check
+// <table>_<column>_fkey / _check, and reports not-null violations by column.
+func fieldOfConstraint(pe *pgconn.PgError) string {
+	if pe.ColumnName != "" {
+		return pe.ColumnName
+	}
+	name, ok := strings.CutPrefix(pe.ConstraintName, pe.TableName+"_")
+	if !ok {
+		return ""
+	}
+	for _, suffix := range []string{"_fkey", "_check"} {
+		if col, ok := strings.CutSuffix(name, suffix); ok {
+			return col
+		}
+	}
+	return ""
 }
 
 // Page is a keyset page request: items after Cursor, at most Limit.

@@ -34,8 +34,8 @@ func (db *DB) CreateWorkRecord(ctx context.Context, w *fleet.WorkRecord) (*fleet
 	if err := w.Validate(); err != nil {
 		return nil, err
 	}
-	if w.At.After(db.now().Add(futureSlack)) {
-		return nil, fleet.FieldError("at", "must not be in the future")
+	if err := fleet.CheckTime("at", w.At, db.now()); err != nil {
+		return nil, err
 	}
 	if w.Resolves == nil {
 		w.Resolves = []string{}
