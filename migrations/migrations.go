@@ -44,13 +44,25 @@ func Latest() (int32, error) {
 	return int32(len(names)), nil
 }
 
-// Current returns the schema version recorded in the database (0 when none).
-func Current(ctx context.Context, conn *pgx.Conn) (int32, error) {
-	m, err := migrate.NewMigrator(ctx, conn, VersionTable)
-	if err != nil {
+// Querier is what Current reads through: a connection or a pool.
+type Querier interface {
+	QueryRow(ctx context.Context, sql string, args ...any) pgx.Row
+}
+
+// Current returns the schema version recorded in the database, 0 when no
+// migration ever ran. It only reads: a command that must not migrate can
+// ask without creating tern's version table.
+func Current(ctx context.Context, q Querier) (int32, error) {
+	var exists bool
+	if err := q.QueryRow(ctx, `SELECT to_regclass($1) IS NOT NULL`, VersionTable).Scan(&exists); err != nil {
 		return 0, err
 	}
-	return m.GetCurrentVersion(ctx)
+	if !exists {
+		return 0, nil
+	}
+	var v int32
+	err := q.QueryRow(ctx, "SELECT version FROM "+VersionTable).Scan(&v)
+	return v, err
 }
 
 // Prepare migrates the database at url on a connection of its own: the

@@ -64,18 +64,44 @@ func (db *DB) Migrate(ctx context.Context, logf func(string, ...any)) error {
 		return fmt.Errorf("acquire: %w", err)
 	}
 	defer conn.Release()
-	cur, err := migrations.Current(ctx, conn.Conn())
-	if err != nil {
-		return fmt.Errorf("schema version: %w", err)
+	if _, _, err := schemaVersions(ctx, conn.Conn()); err != nil {
+		return err
 	}
-	latest, err := migrations.Latest()
+	return migrations.Migrate(ctx, conn.Conn(), logf)
+}
+
+// ErrSchemaBehind is wrapped by CheckSchema's error when migrations are
+// pending.
+var ErrSchemaBehind = errors.New("database schema is behind")
+
+// CheckSchema fails unless the schema is the version this binary knows; it
+// never migrates (only migrate, serve and demo do).
+func (db *DB) CheckSchema(ctx context.Context) error {
+	cur, latest, err := schemaVersions(ctx, db.pool)
 	if err != nil {
 		return err
 	}
-	if cur > latest {
-		return fmt.Errorf("database schema version %d is newer than this binary knows (%d): upgrade rotorwright", cur, latest)
+	if cur < latest {
+		return fmt.Errorf("%w: it is at version %d and this rotorwright needs %d: run rotorwright migrate", ErrSchemaBehind, cur, latest)
 	}
-	return migrations.Migrate(ctx, conn.Conn(), logf)
+	return nil
+}
+
+// schemaVersions reads the database's schema version and the latest this
+// binary knows, and refuses a newer database.
+func schemaVersions(ctx context.Context, q migrations.Querier) (cur, latest int32, err error) {
+	cur, err = migrations.Current(ctx, q)
+	if err != nil {
+		return 0, 0, fmt.Errorf("schema version: %w", err)
+	}
+	latest, err = migrations.Latest()
+	if err != nil {
+		return 0, 0, err
+	}
+	if cur > latest {
+		return 0, 0, fmt.Errorf("database schema version %d is newer than this binary knows (%d): upgrade rotorwright", cur, latest)
+	}
+	return cur, latest, nil
 }
 
 // Actor is who makes a change, recorded in the audit log.

@@ -46,14 +46,15 @@ func newApp(cfg Config, stdout, stderr io.Writer) *App {
 }
 
 // Open starts the embedded database when no URL is configured, connects and
-// migrates.
-func (a *App) Open(ctx context.Context) error { return a.open(ctx, false) }
+// migrates: the start of serve and demo.
+func (a *App) Open(ctx context.Context) error { return a.open(ctx, false, true) }
 
 // openForTool is Open for commands that may run beside a serving instance:
-// they use its embedded cluster when one is running in the home folder.
-func (a *App) openForTool(ctx context.Context) error { return a.open(ctx, true) }
+// they use its embedded cluster when one is running in the home folder. Only
+// migrate applies migrations; the others refuse a schema that is behind.
+func (a *App) openForTool(ctx context.Context, migrate bool) error { return a.open(ctx, true, migrate) }
 
-func (a *App) open(ctx context.Context, attach bool) error {
+func (a *App) open(ctx context.Context, attach, migrate bool) error {
 	url := a.cfg.DatabaseURL
 	if url == "" {
 		opts := pglocal.Options{Dir: a.cfg.Home, Database: "rotorwright",
@@ -81,6 +82,9 @@ func (a *App) open(ctx context.Context, attach bool) error {
 		return err
 	}
 	a.DB = db
+	if !migrate {
+		return db.CheckSchema(ctx)
+	}
 	if err := db.Migrate(ctx, func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }); err != nil {
 		return fmt.Errorf("migrate: %w", err)
 	}

@@ -15,6 +15,12 @@ import (
 // Checks of the command line that need no database go in cmd.PreRunE and
 // return usagef errors.
 func (c *cli) tool(cmd *cobra.Command, body func(ctx context.Context, app *App, args []string) error) *cobra.Command {
+	return c.toolMigrating(cmd, false, body)
+}
+
+// toolMigrating is tool; with migrate set it applies pending migrations
+// (the migrate command), else it refuses a schema that is behind.
+func (c *cli) toolMigrating(cmd *cobra.Command, migrate bool, body func(ctx context.Context, app *App, args []string) error) *cobra.Command {
 	c.cfg.bindDatabase(cmd.Flags())
 	if cmd.Args == nil {
 		cmd.Args = noArgs
@@ -22,7 +28,7 @@ func (c *cli) tool(cmd *cobra.Command, body func(ctx context.Context, app *App, 
 	cmd.RunE = func(cmd *cobra.Command, args []string) error {
 		app := newApp(c.cfg, c.stdout, c.stderr)
 		defer app.Close()
-		if err := app.openForTool(cmd.Context()); err != nil {
+		if err := app.openForTool(cmd.Context(), migrate); err != nil {
 			return err
 		}
 		return body(cmd.Context(), app, args)
@@ -31,10 +37,12 @@ func (c *cli) tool(cmd *cobra.Command, body func(ctx context.Context, app *App, 
 }
 
 func (c *cli) migrateCmd() *cobra.Command {
-	return c.tool(&cobra.Command{
+	return c.toolMigrating(&cobra.Command{
 		Use:   "migrate",
 		Short: "Apply database migrations and exit",
-	}, func(_ context.Context, app *App, _ []string) error {
+		Long: `Apply pending database migrations and exit. serve and demo also migrate when
+they start; every other command refuses a schema that is behind.`,
+	}, true, func(_ context.Context, app *App, _ []string) error {
 		app.log.Info("schema up to date")
 		return nil
 	})

@@ -192,14 +192,32 @@ func NewConn(t testing.TB) *pgx.Conn {
 	return conn
 }
 
+// NewEmptyDB returns the URL of a new database that no migration has
+// touched, for tests of what happens before migrate; dropped when the test
+// ends.
+func NewEmptyDB(t testing.TB) string {
+	t.Helper()
+	if current == nil {
+		t.Fatal("pgtest: NewEmptyDB needs pgtest.Main called from TestMain")
+	}
+	return current.createDB(t, "template0")
+}
+
 func (h *harness) newDB(t testing.TB) string {
+	t.Helper()
+	return h.createDB(t, h.template)
+}
+
+// createDB creates a database from template, dropped at the end of the
+// test, and returns its URL.
+func (h *harness) createDB(t testing.TB, template string) string {
 	t.Helper()
 	name := dbName(h.prefix, h.seq.Add(1), t.Name())
 	// Not t.Context(): it is cancelled before cleanups run.
 	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
 	defer cancel()
 	h.mu.Lock()
-	_, err := h.admin.Exec(ctx, "CREATE DATABASE "+ident(name)+" TEMPLATE "+ident(h.template))
+	_, err := h.admin.Exec(ctx, "CREATE DATABASE "+ident(name)+" TEMPLATE "+ident(template))
 	h.mu.Unlock()
 	if err != nil {
 		t.Fatalf("pgtest: create database %s: %v", name, err)
