@@ -27,9 +27,10 @@ func Attach(dir, database string) (*Cluster, error) {
 	} else if err != nil {
 		return nil, fmt.Errorf("pglocal: %w", err)
 	}
-	// postmaster.pid: PID, data directory, start time, port, ... one a line.
+	// postmaster.pid: PID, data directory, start time, port, socket
+	// directory, ... one a line (PostgreSQL's miscadmin.h).
 	lines := strings.Split(string(data), "\n")
-	if len(lines) < 4 {
+	if len(lines) < 5 || strings.TrimSpace(lines[4]) == "" {
 		return nil, ErrNotRunning
 	}
 	pid, err1 := strconv.Atoi(strings.TrimSpace(lines[0]))
@@ -40,7 +41,7 @@ func Attach(dir, database string) (*Cluster, error) {
 	if database == "" {
 		database = "rotorwright"
 	}
-	return &Cluster{dir: abs, dataDir: filepath.Join(abs, "pgdata"), port: port, database: database,
+	return &Cluster{dir: abs, dataDir: filepath.Join(abs, "pgdata"), sockDir: strings.TrimSpace(lines[4]), port: port, database: database,
 		logf: func(string, ...any) {}, stopped: true}, nil
 }
 

@@ -1,8 +1,8 @@
 // Package pglocal runs a private PostgreSQL cluster from the machine's
 // PostgreSQL server binaries, the default database when no DATABASE_URL is
-// given. The cluster listens on 127.0.0.1 only and trusts every connection
-// from this machine, so it suits one user's machine or a test run, not a
-// shared host.
+// given. The server has no TCP listener: it listens on a Unix socket in a
+// directory of mode 0700 (Dir/run), so only the account that runs it (and
+// root) can connect; within that boundary connections are trusted.
 package pglocal
 
 import (
@@ -10,10 +10,10 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"net"
 	"net/url"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"time"
@@ -27,7 +27,8 @@ type Options struct {
 	// Dir is the data folder (e.g. ./.rotorwright); the cluster lives in
 	// Dir/pgdata and the server log in Dir/postgres.log.
 	Dir string
-	// Port is the loopback TCP port; 0 picks a free one at every start.
+	// Port names the Unix socket (.s.PGSQL.<port>); 0 means 5432. The
+	// server listens on no TCP port.
 	Port int
 	// Logf, when set, receives progress lines (initdb, start, stop).
 	Logf func(format string, args ...any)
@@ -55,8 +56,12 @@ type Cluster struct {
 	stopped bool
 }
 
-// Superuser is the role initdb creates; URLs connect as it.
+// Superuser is the role initdb creates; URL connects as it.
 const Superuser = "postgres"
+
+// defaultPort names the socket when Options.Port is 0 (PostgreSQL's own
+// default). It never clashes: every cluster has a socket directory of its own.
+const defaultPort = 5432
 
 // maxSocketDir keeps "<dir>/.s.PGSQL.<port>" within the 107 bytes a Unix
 // socket path may hold (sun_path is 108 bytes on Linux, NUL included: unix(7)).
@@ -137,24 +142,29 @@ func Start(ctx context.Context, opts Options) (*Cluster, error) {
 	return c, nil
 }
 
-// URL returns a pgx connection string for database db on the cluster; an
-// empty db means the Options.Database one.
-func (c *Cluster) URL(db string) string {
+// URL returns a pgx connection string for database db on the cluster as the
+// superuser; an empty db means the Options.Database one.
+func (c *Cluster) URL(db string) string { return c.URLAs(Superuser, db) }
+
+// URLAs is URL for another role. The server trusts whoever reaches its
+// socket, so no password is needed.
+func (c *Cluster) URLAs(role, db string) string {
 	if db == "" {
 		db = c.database
 	}
-	u := url.URL{
-		Scheme:   "postgres",
-		User:     url.User(Superuser),
-		Host:     fmt.Sprintf("127.0.0.1:%d", c.port),
-		Path:     "/" + db,
-		RawQuery: "sslmode=disable",
-	}
+	q := url.Values{}
+	q.Set("host", c.sockDir)
+	q.Set("port", strconv.Itoa(c.port))
+	q.Set("sslmode", "disable")
+	u := url.URL{Scheme: "postgres", User: url.User(role), Path: "/" + db, RawQuery: q.Encode()}
 	return u.String()
 }
 
-// Port returns the TCP port the server listens on.
+// Port returns the number in the socket's name.
 func (c *Cluster) Port() int { return c.port }
+
+// SocketDir returns the directory holding the server's Unix socket.
+func (c *Cluster) SocketDir() string { return c.sockDir }
 
 // DataDir returns the cluster directory (Dir/pgdata).
 func (c *Cluster) DataDir() string { return c.dataDir }
@@ -173,7 +183,7 @@ func (c *Cluster) Stop(ctx context.Context) error {
 	}
 	c.stopped = true
 	c.removeTempSock()
-	c.logf("pglocal: stopped server on port %d", c.port)
+	c.logf("pglocal: stopped server in %s", c.dataDir)
 	return nil
 }
 
@@ -196,6 +206,8 @@ func (c *Cluster) prepareFiles() error {
 		}
 		c.sockDir, c.tempSock = d, true
 	} else if err := os.MkdirAll(c.sockDir, 0o700); err != nil {
+		return fmt.Errorf("pglocal: %w", err)
+	} else if err := os.Chmod(c.sockDir, 0o700); err != nil { // made wider by hand, or by an old version
 		return fmt.Errorf("pglocal: %w", err)
 	}
 	f, err := os.OpenFile(c.logFile, os.O_CREATE|os.O_WRONLY|os.O_APPEND, 0o600)
@@ -225,38 +237,24 @@ func (c *Cluster) initdb(ctx context.Context, ephemeral bool) error {
 	return nil
 }
 
-// startServer writes the per-start settings and runs pg_ctl start. With an
-// automatic port it retries when another process took the port between our
-// probe and the server's bind.
+// startServer writes the per-start settings and runs pg_ctl start.
 func (c *Cluster) startServer(ctx context.Context, opts Options) error {
-	const attempts = 3
-	for i := 1; ; i++ {
-		c.port = opts.Port
-		if c.port == 0 {
-			p, err := freePort()
-			if err != nil {
-				return err
-			}
-			c.port = p
-		}
-		if err := c.writeConfig(opts.Ephemeral); err != nil {
-			return err
-		}
-		logStart := fileSize(c.logFile)
-		start := time.Now()
-		out, err := c.pgctl(ctx, "start", "-D", c.dataDir, "-l", c.logFile, "-w", "-t", "60", "-s")
-		if err == nil {
-			c.logf("pglocal: server on 127.0.0.1:%d ready (%s)", c.port, time.Since(start).Round(time.Millisecond))
-			return nil
-		}
-		tail := readFrom(c.logFile, logStart)
-		if opts.Port == 0 && i < attempts && strings.Contains(tail, "could not bind") {
-			c.logf("pglocal: port %d taken, retrying", c.port)
-			continue
-		}
-		return fmt.Errorf("pglocal: pg_ctl start: %v: %s\nserver log (%s):\n%s",
-			err, bytes.TrimSpace(out), c.logFile, lastLines(tail, 20))
+	c.port = opts.Port
+	if c.port == 0 {
+		c.port = defaultPort
 	}
+	if err := c.writeConfig(opts.Ephemeral); err != nil {
+		return err
+	}
+	logStart := fileSize(c.logFile)
+	start := time.Now()
+	out, err := c.pgctl(ctx, "start", "-D", c.dataDir, "-l", c.logFile, "-w", "-t", "60", "-s")
+	if err != nil {
+		return fmt.Errorf("pglocal: pg_ctl start: %v: %s\nserver log (%s):\n%s",
+			err, bytes.TrimSpace(out), c.logFile, lastLines(readFrom(c.logFile, logStart), 20))
+	}
+	c.logf("pglocal: server ready on the socket in %s (%s)", c.sockDir, time.Since(start).Round(time.Millisecond))
+	return nil
 }
 
 // writeConfig rewrites rotorwright.conf, which postgresql.conf includes, so
@@ -276,10 +274,10 @@ func (c *Cluster) writeConfig(ephemeral bool) error {
 		}
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "listen_addresses = '127.0.0.1'\n")
+	// No TCP listener: the socket directory's mode is the access control.
+	fmt.Fprintf(&b, "listen_addresses = ''\n")
 	fmt.Fprintf(&b, "port = %d\n", c.port)
 	fmt.Fprintf(&b, "unix_socket_directories = %s\n", confQuote(c.sockDir))
-	// Trust auth covers the socket too; only the server account may use it.
 	fmt.Fprintf(&b, "unix_socket_permissions = 0700\n")
 	if ephemeral {
 		// Safe only because the data is thrown away (common practice for
@@ -290,8 +288,25 @@ func (c *Cluster) writeConfig(ephemeral bool) error {
 	if err := os.WriteFile(p, []byte(b.String()), 0o600); err != nil {
 		return fmt.Errorf("pglocal: %w", err)
 	}
-	return c.acct.own(p)
+	if err := c.acct.own(p); err != nil {
+		return err
+	}
+	// initdb's pg_hba.conf (and that of clusters made by older versions)
+	// also trusts TCP from 127.0.0.1: replace it with socket lines only.
+	hba := filepath.Join(c.dataDir, "pg_hba.conf")
+	if err := os.WriteFile(hba, []byte(hbaConf), 0o600); err != nil {
+		return fmt.Errorf("pglocal: %w", err)
+	}
+	return c.acct.own(hba)
 }
+
+// hbaConf admits connections on the Unix socket only. Reaching the socket
+// needs entry to its 0700 directory, which only the server's account (and
+// root) has, so those connections are trusted.
+const hbaConf = `# Managed by rotorwright; rewritten at every start.
+# TYPE  DATABASE  USER  METHOD
+local   all       all   trust
+`
 
 // waitReady polls until the server answers a query; pg_ctl -w already waited
 // for the postmaster, this also covers a slow first connection.
@@ -309,7 +324,7 @@ func (c *Cluster) waitReady(ctx context.Context) error {
 		}
 		select {
 		case <-ctx.Done():
-			return fmt.Errorf("pglocal: server on port %d does not accept connections: %w", c.port, err)
+			return fmt.Errorf("pglocal: server on %s does not accept connections: %w", c.sockDir, err)
 		case <-time.After(50 * time.Millisecond):
 		}
 	}
@@ -338,15 +353,6 @@ func (c *Cluster) removeTempSock() {
 	if c.tempSock {
 		_ = os.RemoveAll(c.sockDir)
 	}
-}
-
-func freePort() (int, error) {
-	l, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		return 0, fmt.Errorf("pglocal: pick a free port: %w", err)
-	}
-	defer l.Close()
-	return l.Addr().(*net.TCPAddr).Port, nil
 }
 
 // confQuote quotes a postgresql.conf string value.

@@ -73,8 +73,8 @@ func TestStartQueryStopRestart(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if one != 1 || db != "rotorwright" || enc != "UTF8" || collate != "C" || listen != "127.0.0.1" {
-		t.Errorf("got (%d, %s, %s, %s, %s), want (1, rotorwright, UTF8, C, 127.0.0.1)", one, db, enc, collate, listen)
+	if one != 1 || db != "rotorwright" || enc != "UTF8" || collate != "C" || listen != "" {
+		t.Errorf("got (%d, %s, %s, %s, %q), want (1, rotorwright, UTF8, C, \"\")", one, db, enc, collate, listen)
 	}
 	if _, err := conn.Exec(t.Context(), `create table kept (v text); insert into kept values ('before restart')`); err != nil {
 		t.Fatal(err)
@@ -116,6 +116,81 @@ func TestStartQueryStopRestart(t *testing.T) {
 	if err == nil || !strings.Contains(err.Error(), "already running") {
 		t.Errorf("Start on a running cluster: %v, want an \"already running\" error", err)
 	}
+}
+
+// The server has no TCP listener and admits socket connections only; the
+// socket sits in a directory of mode 0700 owned by the server's account, so
+// no other local user can reach it.
+func TestSocketOnly(t *testing.T) {
+	dir := clusterDir(t)
+	c := startCluster(t, Options{Dir: dir})
+	conn := connect(t, c.URL(""))
+	var listen string
+	if err := conn.QueryRow(t.Context(), `SELECT current_setting('listen_addresses')`).Scan(&listen); err != nil {
+		t.Fatal(err)
+	}
+	if listen != "" {
+		t.Errorf("listen_addresses = %q, want none", listen)
+	}
+	// The rules the server loaded: socket lines only, none for TCP.
+	rows, err := conn.Query(t.Context(), `SELECT type, auth_method FROM pg_hba_file_rules`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	for rows.Next() {
+		var typ, method string
+		if err := rows.Scan(&typ, &method); err != nil {
+			t.Fatal(err)
+		}
+		n++
+		if typ != "local" {
+			t.Errorf("pg_hba rule of type %s (%s): want local only", typ, method)
+		}
+	}
+	if rows.Err() != nil || n == 0 {
+		t.Fatalf("pg_hba rules: %d, %v", n, rows.Err())
+	}
+	// The postmaster holds no listening TCP socket (/proc/net/tcp{,6}: state
+	// 0A is LISTEN; its socket inodes are under /proc/PID/fd).
+	pid := postmasterPID(t, c)
+	if inodes := listeningTCPInodes(t); len(inodes) > 0 {
+		fds, _ := filepath.Glob(fmt.Sprintf("/proc/%d/fd/*", pid))
+		for _, fd := range fds {
+			if target, err := os.Readlink(fd); err == nil && inodes[target] {
+				t.Errorf("the server (PID %d) listens on TCP: %s", pid, target)
+			}
+		}
+	}
+	fi, err := os.Stat(c.SocketDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fi.Mode().Perm() != 0o700 || c.SocketDir() != filepath.Join(dir, "run") {
+		t.Errorf("socket dir %s mode %04o, want %s mode 0700", c.SocketDir(), fi.Mode().Perm(), filepath.Join(dir, "run"))
+	}
+	if uid := int(fi.Sys().(*syscall.Stat_t).Uid); uid != c.acct.uid {
+		t.Errorf("socket dir owned by uid %d, want the server's %d", uid, c.acct.uid)
+	}
+}
+
+// listeningTCPInodes returns "socket:[inode]" of every listening TCP socket.
+func listeningTCPInodes(t *testing.T) map[string]bool {
+	t.Helper()
+	out := map[string]bool{}
+	for _, f := range []string{"/proc/net/tcp", "/proc/net/tcp6"} {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			continue
+		}
+		for _, line := range strings.Split(string(b), "\n")[1:] {
+			fs := strings.Fields(line)
+			if len(fs) > 9 && fs[3] == "0A" {
+				out["socket:["+fs[9]+"]"] = true
+			}
+		}
+	}
+	return out
 }
 
 func TestLongDirUsesShortSocketDir(t *testing.T) {
