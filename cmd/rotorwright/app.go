@@ -24,6 +24,7 @@ import (
 // App is the wired service: database (embedded or given), store and API.
 type App struct {
 	cfg     Config
+	command string    // names this process in the home's lock file
 	out     io.Writer // command output (tokens, tables, summaries)
 	errOut  io.Writer // progress for people at a terminal
 	log     *slog.Logger
@@ -42,7 +43,7 @@ func NewApp(cfg Config) *App { return newApp(cfg, os.Stdout, os.Stderr) }
 // stderr.
 func newApp(cfg Config, stdout, stderr io.Writer) *App {
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: cfg.LogLevel}))
-	return &App{cfg: cfg, out: stdout, errOut: stderr, log: log, Addr: make(chan string, 1)}
+	return &App{cfg: cfg, command: "serve", out: stdout, errOut: stderr, log: log, Addr: make(chan string, 1)}
 }
 
 // Open starts the embedded database when no URL is configured, connects and
@@ -62,17 +63,15 @@ func (a *App) open(ctx context.Context, attach, migrate bool) error {
 		var c *pglocal.Cluster
 		var err error
 		if attach {
-			var attached bool
-			c, attached, err = pglocal.StartOrAttach(ctx, opts)
-			if attached {
-				a.log.Info("using the running embedded PostgreSQL", "home", a.cfg.Home)
-			}
+			c, err = pglocal.Use(ctx, opts, a.command)
 		} else {
-			a.log.Info("starting embedded PostgreSQL", "home", a.cfg.Home)
-			c, err = pglocal.Start(ctx, opts)
+			c, err = pglocal.Own(ctx, opts, a.command)
 		}
 		if err != nil {
 			return err
+		}
+		if o := c.Owner(); !c.Owned() {
+			a.log.Info("using the embedded PostgreSQL of a running rotorwright", "pid", o.PID, "command", o.Command, "home", a.cfg.Home)
 		}
 		a.cluster = c
 		url = c.URL("rotorwright")
@@ -178,6 +177,11 @@ func (a *App) Run(ctx context.Context) error {
 		return fmt.Errorf("listen %s: %w", a.cfg.Addr, err)
 	}
 	addr := ln.Addr().String()
+	if a.cluster != nil {
+		if err := a.cluster.SetAddr(addr); err != nil {
+			a.log.Warn("recording the address in the home's lock file", "err", err)
+		}
+	}
 	a.log.Info("listening", "addr", addr)
 	a.Addr <- addr
 	errc := make(chan error, 1)
@@ -207,7 +211,10 @@ func (a *App) Close() error {
 	if a.cluster != nil {
 		ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
 		defer cancel()
-		a.log.Info("stopping embedded PostgreSQL")
+		if !a.cluster.Owned() {
+			return a.cluster.Stop(ctx) // lets go of the owner's server, which keeps running
+		}
+		a.log.Info("stopping embedded PostgreSQL", "home", a.cfg.Home)
 		return a.cluster.Stop(ctx)
 	}
 	return nil

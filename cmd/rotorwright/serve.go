@@ -44,6 +44,7 @@ func (c *cli) serve(cmd *cobra.Command, demo bool, months int) error {
 	}
 	ctx := cmd.Context()
 	app := newApp(c.cfg, c.stdout, c.stderr)
+	app.command = cmd.Name()
 	defer app.Close()
 	start := time.Now()
 	if err := app.Open(ctx); err != nil {

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"errors"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -27,6 +28,7 @@ func (c *cli) toolMigrating(cmd *cobra.Command, migrate bool, body func(ctx cont
 	}
 	cmd.RunE = func(cmd *cobra.Command, args []string) error {
 		app := newApp(c.cfg, c.stdout, c.stderr)
+		app.command = strings.TrimPrefix(cmd.CommandPath(), "rotorwright ")
 		defer app.Close()
 		if err := app.openForTool(cmd.Context(), migrate); err != nil {
 			return err

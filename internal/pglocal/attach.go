@@ -1,7 +1,6 @@
 package pglocal
 
 import (
-	"context"
 	"errors"
 	"fmt"
 	"os"
@@ -14,8 +13,9 @@ import (
 var ErrNotRunning = errors.New("pglocal: no server is running there")
 
 // Attach returns the cluster already running in dir (started by another
-// process, such as a running serve), so that a command such as key create
-// can use it. Its Stop does nothing: the starting process owns the server.
+// process), without any lock: Use is the safe way for a command to share a
+// running owner's server. Its Stop does nothing: the starting process owns
+// the server.
 func Attach(dir, database string) (*Cluster, error) {
 	abs, err := filepath.Abs(dir)
 	if err != nil {
@@ -43,14 +43,4 @@ func Attach(dir, database string) (*Cluster, error) {
 	}
 	return &Cluster{dir: abs, dataDir: filepath.Join(abs, "pgdata"), sockDir: strings.TrimSpace(lines[4]), port: port, database: database,
 		logf: func(string, ...any) {}, stopped: true}, nil
-}
-
-// StartOrAttach attaches to a server already running in opts.Dir, or starts
-// one. attached reports which.
-func StartOrAttach(ctx context.Context, opts Options) (c *Cluster, attached bool, err error) {
-	if c, err := Attach(opts.Dir, opts.Database); err == nil {
-		return c, true, nil
-	}
-	c, err = Start(ctx, opts)
-	return c, false, err
 }

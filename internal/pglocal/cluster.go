@@ -16,6 +16,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"syscall"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -52,6 +53,10 @@ type Cluster struct {
 	acct     account
 	logf     func(format string, args ...any)
 
+	claim *claim   // held by the folder's owner (Own, Use): Stop stops the server
+	users *os.File // a shared users lock held while attached (Use)
+	owner Owner    // the owner, when attached
+
 	mu      sync.Mutex
 	stopped bool
 }
@@ -70,7 +75,13 @@ const maxSocketDir = 107 - len("/.s.PGSQL.65535")
 // Start starts the cluster in opts.Dir, creating it with initdb on first use,
 // waits until it accepts connections and creates opts.Database if missing.
 // The caller must call Stop; the server outlives this process otherwise.
-func Start(ctx context.Context, opts Options) (*Cluster, error) {
+// Start takes no lock: it is for folders one process uses alone, such as a
+// test's; Own and Use share a folder between processes.
+func Start(ctx context.Context, opts Options) (*Cluster, error) { return start(ctx, opts, nil) }
+
+// start is Start; with cl, the owner lock of opts.Dir, a server left running
+// there by a dead owner is restarted rather than refused.
+func start(ctx context.Context, opts Options, cl *claim) (*Cluster, error) {
 	if opts.Dir == "" {
 		return nil, errors.New("pglocal: Options.Dir is empty")
 	}
@@ -94,6 +105,7 @@ func Start(ctx context.Context, opts Options) (*Cluster, error) {
 		database: opts.Database,
 		acct:     acct,
 		logf:     opts.Logf,
+		claim:    cl,
 	}
 	if c.database == "" {
 		c.database = "rotorwright"
@@ -124,7 +136,7 @@ func Start(ctx context.Context, opts Options) (*Cluster, error) {
 	} else if err != nil {
 		return nil, fmt.Errorf("pglocal: %w", err)
 	}
-	if err := c.clearStalePID(); err != nil {
+	if err := c.clearStalePID(ctx); err != nil {
 		return nil, err
 	}
 	if err := c.startServer(ctx, opts); err != nil {
@@ -170,12 +182,29 @@ func (c *Cluster) SocketDir() string { return c.sockDir }
 func (c *Cluster) DataDir() string { return c.dataDir }
 
 // Stop shuts the server down (pg_ctl stop -m fast, which rolls back open
-// transactions and disconnects clients). Calling it again does nothing.
+// transactions and disconnects clients). An owner first waits for the
+// commands attached to its server (until ctx ends); an attached command
+// only lets go of the server. Calling it again does nothing.
 func (c *Cluster) Stop(ctx context.Context) error {
 	c.mu.Lock()
 	defer c.mu.Unlock()
+	if c.users != nil {
+		c.users.Close()
+		c.users = nil
+	}
 	if c.stopped {
 		return nil
+	}
+	if c.claim != nil {
+		users, err := lockUsers(ctx, c.dir, syscall.LOCK_EX, func() {
+			c.logf("pglocal: waiting for the other rotorwright commands using the database to finish")
+		})
+		if err != nil {
+			c.logf("pglocal: other commands still use the database (%v); stopping it anyway", err)
+			ctx = context.WithoutCancel(ctx)
+		} else {
+			defer users.Close() // after the claim is released: see Use
+		}
 	}
 	out, err := c.pgctl(ctx, "stop", "-D", c.dataDir, "-m", "fast", "-w", "-t", "60", "-s")
 	if err != nil && c.running(ctx) {
@@ -184,6 +213,10 @@ func (c *Cluster) Stop(ctx context.Context) error {
 	c.stopped = true
 	c.removeTempSock()
 	c.logf("pglocal: stopped server in %s", c.dataDir)
+	if c.claim != nil {
+		c.claim.release()
+		c.claim = nil
+	}
 	return nil
 }
 

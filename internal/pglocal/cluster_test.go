@@ -2,7 +2,6 @@ package pglocal
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -311,25 +310,4 @@ func TestStopLeftoverWithoutServer(t *testing.T) {
 	if err := StopLeftover(t.Context(), clusterDir(t)); err != nil {
 		t.Errorf("StopLeftover on an empty folder: %v, want nil", err)
 	}
-}
-
-func TestAttachToRunning(t *testing.T) {
-	dir := clusterDir(t)
-	if _, err := Attach(dir, ""); !errors.Is(err, ErrNotRunning) {
-		t.Fatalf("Attach with no server: err = %v, want ErrNotRunning", err)
-	}
-	c := startCluster(t, Options{Dir: dir})
-	a, attached, err := StartOrAttach(t.Context(), Options{Dir: dir})
-	if err != nil || !attached {
-		t.Fatalf("StartOrAttach = attached %v, err %v; want attached", attached, err)
-	}
-	if a.Port() != c.Port() {
-		t.Fatalf("attached port %d, server port %d", a.Port(), c.Port())
-	}
-	connect(t, a.URL("")).Close(t.Context())
-	if err := a.Stop(t.Context()); err != nil {
-		t.Fatal(err)
-	}
-	// The attached handle must not stop the owner's server.
-	connect(t, c.URL("")).Close(t.Context())
 }

@@ -63,9 +63,10 @@ func serverEnv() []string {
 // clearStalePID removes postmaster.pid when its process is gone or is not a
 // PostgreSQL server. The server checks this itself, but after a crash in a
 // container the recorded PID is often reused by another process, and the
-// server then refuses to start. A live server on our directory is reported
-// rather than stopped: it may belong to another running instance.
-func (c *Cluster) clearStalePID() error {
+// server then refuses to start. A live server on our directory is refused,
+// unless we hold the folder's owner lock: then no live owner runs it, and it
+// was left by one that died, so it is restarted.
+func (c *Cluster) clearStalePID(ctx context.Context) error {
 	pidFile := filepath.Join(c.dataDir, "postmaster.pid")
 	data, err := os.ReadFile(pidFile)
 	if errors.Is(err, os.ErrNotExist) {
@@ -77,9 +78,10 @@ func (c *Cluster) clearStalePID() error {
 	first, _, _ := strings.Cut(string(data), "\n")
 	pid, err := strconv.Atoi(strings.TrimSpace(first))
 	if err == nil && isServerProcess(pid) {
-		return fmt.Errorf("pglocal: a PostgreSQL server (PID %d) is already running on %s, "+
-			"perhaps left by a run that did not shut down: stop it (pg_ctl stop -D %s%s) and start again",
-			pid, c.dataDir, c.dataDir, asUserHint(c.acct))
+		if c.claim == nil {
+			return fmt.Errorf("pglocal: a PostgreSQL server (PID %d) is already running on %s", pid, c.dataDir)
+		}
+		return c.stopOrphan(ctx, pid)
 	}
 	c.logf("pglocal: removing stale %s (PID %s is not a running server)", pidFile, strings.TrimSpace(first))
 	if err := os.Remove(pidFile); err != nil {
@@ -93,11 +95,23 @@ func (c *Cluster) clearStalePID() error {
 	return nil
 }
 
-func asUserHint(a account) string {
-	if a.switched() {
-		return ", as user " + a.name
+// stopOrphan stops the server pid that a dead owner left running, once the
+// commands that attached to it while its owner lived have finished.
+func (c *Cluster) stopOrphan(ctx context.Context, pid int) error {
+	users, err := lockUsers(ctx, c.dir, syscall.LOCK_EX, func() {
+		c.logf("pglocal: waiting for the commands still using the server (PID %d) that a rotorwright "+
+			"which ended without stopping it left running", pid)
+	})
+	if err != nil {
+		return fmt.Errorf("pglocal: %w", err)
 	}
-	return ""
+	defer users.Close()
+	c.logf("pglocal: restarting the server (PID %d) that a rotorwright which ended without stopping it left running", pid)
+	out, err := c.pgctl(ctx, "stop", "-D", c.dataDir, "-m", "fast", "-w", "-t", "60", "-s")
+	if err != nil && c.running(ctx) {
+		return fmt.Errorf("pglocal: stop the server left running (PID %d): %v: %s", pid, err, bytes.TrimSpace(out))
+	}
+	return nil
 }
 
 // isServerProcess reports whether pid is a live process named postgres (or
