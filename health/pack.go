@@ -2,8 +2,8 @@ package health
 
 import (
 	"context"
-	"fmt"
 	"math"
+	"slices"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -13,15 +13,16 @@ import (
 
 // PackView is a pack's health.
 type PackView struct {
-	Chemistry    fleet.Chemistry     `json:"chemistry"`
-	CellsS       int                 `json:"cells_s"`
-	RatedMah     float64             `json:"rated_mah"`
-	Flights      int                 `json:"flights"`
-	Cycles       float64             `json:"cycles"` // equivalent full cycles
-	CapacityMah  *float64            `json:"capacity_mah"`
-	SoH          *float64            `json:"soh"`
-	Capacity     []CapacityPoint     `json:"capacity_series"`
-	Fade         *FadeView           `json:"fade"`
+	Chemistry   fleet.Chemistry `json:"chemistry"`
+	CellsS      int             `json:"cells_s"`
+	RatedMah    float64         `json:"rated_mah"`
+	Flights     int             `json:"flights"`
+	Cycles      float64         `json:"cycles"` // equivalent full cycles
+	CapacityMah *float64        `json:"capacity_mah"`
+	SoH         *float64        `json:"soh"`
+	Capacity    []CapacityPoint `json:"capacity_series"`
+	// Forecast is the capacity-fade forecast (mAh against cycles) and its
+	// end-of-life crossing; nil before any capacity estimate.
 	Forecast     *ForecastView       `json:"forecast"`
 	Resistance   *ResistanceView     `json:"resistance"`
 	ImbalanceMV  *float64            `json:"imbalance_mv"`
@@ -38,40 +39,36 @@ type CapacityPoint struct {
 	Source      string    `json:"source"` // flight_rest_voltages, charge_record, capacity_test
 }
 
-// FadeView is the chosen capacity-fade model.
-type FadeView struct {
-	Model      string              `json:"model"`
-	Coef       []float64           `json:"coef"`
-	Terms      []string            `json:"terms"`
-	ResidualSD float64             `json:"residual_sd_mah"`
-	RSquared   float64             `json:"r_squared"`
-	Criterion  string              `json:"criterion"`
-	Candidates []wear.CandidateFit `json:"candidates"`
-}
-
-// ForecastView is the end-of-life forecast: where the fitted capacity falls
-// below the threshold and stays there (sustained), the first fitted and
-// observed crossings, and the cycles over which the 95 % prediction interval
-// brackets the threshold.
+// ForecastView is a trend forecast (wear.Forecast: the model chosen by
+// rolling-origin evaluation, its backtest error, every candidate, and the
+// crossing of the threshold with its interval) with the date of the
+// sustained crossing and of the interval's ends at the recent usage rate,
+// and the crossing of each service rule's limit on this pack.
 type ForecastView struct {
-	ThresholdMah      float64    `json:"threshold_mah"`
-	FittedFirst       *float64   `json:"fitted_first_cycle"`
-	FittedSustained   *float64   `json:"fitted_sustained_cycle"`
-	ObservedFirst     *float64   `json:"observed_first_cycle"`
-	ObservedSustained *float64   `json:"observed_sustained_cycle"`
-	IntervalFrom      *float64   `json:"interval_from_cycle"`
-	IntervalTo        *float64   `json:"interval_to_cycle"`
-	CyclesPerDay      float64    `json:"cycles_per_day"`
-	Date              *time.Time `json:"date"` // of the sustained crossing at the recent usage rate
+	*wear.TrendForecast
+	CyclesPerDay float64       `json:"cycles_per_day"`
+	Date         *time.Time    `json:"date"`
+	IntervalDate [2]*time.Time `json:"interval_dates"`
+	Limits       []LimitView   `json:"limits"`
 }
 
-// ResistanceView is the resistance trend.
+// LimitView is the crossing of one rule limit (soh_below_pct or
+// ir_rise_pct, in the rule's percent) with its date.
+type LimitView struct {
+	Limit float64 `json:"limit_pct"`
+	wear.Crossing
+	Date *time.Time `json:"date"`
+}
+
+// ResistanceView is the resistance trend; Forecast is the rise (% over
+// baseline) against cycles, forecast to the retire threshold.
 type ResistanceView struct {
-	BaselineMOhm     float64      `json:"baseline_mohm"`
-	CurrentMOhm      float64      `json:"current_mohm"`
-	RisePct          float64      `json:"rise_pct"`
-	SlopePctPerCycle float64      `json:"slope_pct_per_cycle"`
-	Series           []CyclePoint `json:"series"`
+	BaselineMOhm     float64       `json:"baseline_mohm"`
+	CurrentMOhm      float64       `json:"current_mohm"`
+	RisePct          float64       `json:"rise_pct"`
+	SlopePctPerCycle float64       `json:"slope_pct_per_cycle"`
+	Series           []CyclePoint  `json:"series"`
+	Forecast         *ForecastView `json:"forecast"`
 }
 
 // CyclePoint is a value at a cycle count.
@@ -166,38 +163,40 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *Vie
 	pv.Cycles = cycles
 	readings := wear.PackReadings{Cycles: cycles}
 
-	// Capacity: the fitted fade model when there are enough estimates, else
-	// the median of the latest three.
-	if n := len(pv.Capacity); n >= 5 {
-		pts := make([]wear.FadePoint, n)
+	perDay := recentCycles / (s.Settings.UtilisationWindow.Hours() / 24)
+	limits, err := s.packLimits(ctx, p)
+	if err != nil {
+		return err
+	}
+	// Capacity: the forecast's model when it has one, else the median of the
+	// latest three estimates.
+	if n := len(pv.Capacity); n > 0 {
+		pts := make([]wear.TrendPoint, n)
 		for i, c := range pv.Capacity {
-			pts[i] = wear.FadePoint{Cycle: c.Cycle, Capacity: c.CapacityMah}
+			pts[i] = wear.TrendPoint{Cycle: c.Cycle, Value: c.CapacityMah}
 		}
-		fit, err := wear.FitFade(pts)
-		if err == nil {
-			pv.Fade = &FadeView{Model: fit.Model, Coef: fit.Coef, Terms: fit.Terms, ResidualSD: fit.ResidualSD,
-				RSquared: fit.RSquared, Criterion: fit.Criterion, Candidates: fit.Candidates}
-			pv.CapacityMah = ptr(fit.Predict(cycles))
-			fc, err := fit.ForecastFraction(specs.RatedMah, s.Settings.EOLFraction, 0.95, 0)
-			if err == nil {
-				perDay := recentCycles / (s.Settings.UtilisationWindow.Hours() / 24)
-				pv.Forecast = &ForecastView{ThresholdMah: fc.Threshold, FittedFirst: fc.FittedFirst,
-					FittedSustained: fc.FittedSustained, ObservedFirst: fc.ObservedFirst,
-					ObservedSustained: fc.ObservedSustained, IntervalFrom: fc.IntervalFrom, IntervalTo: fc.IntervalTo,
-					CyclesPerDay: perDay}
-				if fc.FittedSustained != nil {
-					pv.Forecast.Date = wear.CycleDate(now, cycles, *fc.FittedSustained, perDay)
-					readings.CyclesToEOL = ptr(*fc.FittedSustained - cycles)
-				}
+		fc, err := wear.CapacityForecast(pts, specs.RatedMah, s.Settings.EOLFraction)
+		if err != nil {
+			return err
+		}
+		pv.Forecast = newForecastView(fc, now, cycles, perDay)
+		for _, l := range limits.soh {
+			pv.Forecast.limit(l, fc.CrossingAt(l/100*specs.RatedMah), now, cycles, perDay)
+		}
+		if fc.Model != "" {
+			pv.CapacityMah = ptr(fc.Predict(cycles))
+		} else {
+			last := make([]float64, 0, 3)
+			for i := max(0, n-3); i < n; i++ {
+				last = append(last, pv.Capacity[i].CapacityMah)
 			}
+			pv.CapacityMah = ptr(median(last))
 		}
-	} else if n > 0 {
-		last := make([]float64, 0, 3)
-		for i := max(0, n-3); i < n; i++ {
-			last = append(last, pv.Capacity[i].CapacityMah)
+		if fc.FittedSustained != nil {
+			readings.CyclesToEOL = ptr(*fc.FittedSustained - cycles)
+		} else {
+			v.Notes = append(v.Notes, "capacity forecast: "+fc.Reason)
 		}
-		pv.CapacityMah = ptr(median(last))
-		v.Notes = append(v.Notes, fmt.Sprintf("%d capacity estimates: a fade model needs at least 5", n))
 	} else {
 		v.Notes = append(v.Notes, "no capacity estimate yet: needs flights with rest voltages before and after, a charge record or a capacity test")
 	}
@@ -217,6 +216,20 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *Vie
 			pv.Resistance = &ResistanceView{BaselineMOhm: rt.BaselineMOhm, CurrentMOhm: rt.CurrentMOhm, RisePct: rt.RisePct,
 				SlopePctPerCycle: rt.SlopePctPerCycle, Series: irSeries}
 			readings.IRRisePct = ptr(rt.RisePct)
+			// The same forecast machinery on the rise over baseline (%),
+			// crossing upward to the retire threshold and each rule's limit.
+			rise := make([]wear.TrendPoint, len(ir))
+			for i, r := range ir {
+				rise[i] = wear.TrendPoint{Cycle: r.Cycle, Value: 100 * (r.MOhm - rt.BaselineMOhm) / rt.BaselineMOhm}
+			}
+			fc, err := wear.Forecast(rise, wear.ForecastSettings{Threshold: th.RetireIRRisePct, Rising: true})
+			if err != nil {
+				return err
+			}
+			pv.Resistance.Forecast = newForecastView(fc, now, cycles, perDay)
+			for _, l := range limits.ir {
+				pv.Resistance.Forecast.limit(l, fc.CrossingAt(l), now, cycles, perDay)
+			}
 		}
 	}
 	// Imbalance and storage from the latest check with cell voltages, if it
@@ -264,4 +277,66 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *Vie
 	}
 	v.Pack = pv
 	return nil
+}
+
+// newForecastView dates a forecast's sustained crossing and interval at the
+// recent usage rate.
+func newForecastView(fc *wear.TrendForecast, now time.Time, cycles, perDay float64) *ForecastView {
+	v := &ForecastView{TrendForecast: fc, CyclesPerDay: perDay, Limits: []LimitView{}}
+	v.Date = cycleDate(now, cycles, fc.FittedSustained, perDay)
+	v.IntervalDate = [2]*time.Time{cycleDate(now, cycles, fc.IntervalFrom, perDay), cycleDate(now, cycles, fc.IntervalTo, perDay)}
+	return v
+}
+
+// limit adds the crossing of one rule limit.
+func (v *ForecastView) limit(pct float64, c wear.Crossing, now time.Time, cycles, perDay float64) {
+	v.Limits = append(v.Limits, LimitView{Limit: pct, Crossing: c, Date: cycleDate(now, cycles, c.FittedSustained, perDay)})
+}
+
+// Limit returns the crossing of the rule limit pct, if the view has it.
+func (v *ForecastView) Limit(pct float64) *LimitView {
+	if v == nil {
+		return nil
+	}
+	for i := range v.Limits {
+		if v.Limits[i].Limit == pct {
+			return &v.Limits[i]
+		}
+	}
+	return nil
+}
+
+func cycleDate(now time.Time, cycles float64, at *float64, perDay float64) *time.Time {
+	if at == nil {
+		return nil
+	}
+	return wear.CycleDate(now, cycles, *at, perDay)
+}
+
+// packRuleLimits are the distinct limits of the enabled pack rules that
+// apply to one pack.
+type packRuleLimits struct{ soh, ir []float64 }
+
+// packLimits reads the programme's pack rules for p (all pack rules, or
+// those of its part number).
+func (s *Service) packLimits(ctx context.Context, p *fleet.Part) (packRuleLimits, error) {
+	rules, err := s.DB.Rules(ctx)
+	if err != nil {
+		return packRuleLimits{}, err
+	}
+	var out packRuleLimits
+	add := func(list []float64, v *float64) []float64 {
+		if v == nil || slices.Contains(list, *v) {
+			return list
+		}
+		return append(list, *v)
+	}
+	for _, r := range rules {
+		if !r.Enabled || r.AppliesTo != string(fleet.KindPack) || (r.PartNumber != nil && *r.PartNumber != p.PartNumber) {
+			continue
+		}
+		out.soh = add(out.soh, r.SoHBelowPct)
+		out.ir = add(out.ir, r.IRRisePct)
+	}
+	return out, nil
 }

@@ -14,6 +14,7 @@ import (
 	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/sim"
+	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -90,12 +91,30 @@ func (r *rig) fly(af *fleet.Airframe, pk *fleet.Part, spec sim.FlightSpec) sim.T
 	return truth
 }
 
-// A pack with known capacity fade and resistance growth, flown deep cycles:
-// the health view recovers the growth and the fade the simulator was given.
+// Packs with known capacity fade (linear, and square root of cycles) and
+// resistance growth, flown deep cycles: the health view recovers the growth
+// and the fade the simulator was given, and its end-of-life and resistance
+// forecasts hold the laws' crossings.
 func TestPackTrendsRecoverSimulatorTruth(t *testing.T) {
+	for _, c := range []struct {
+		name  string
+		law   sim.FadeLaw
+		coeff float64
+		// eol is where the law reaches 80 % of rated (computed): linear
+		// 0.2 / 0.003, square root (0.2 / 0.0258)^2.
+		eol float64
+	}{
+		{"linear", sim.FadeLinear, 0.003, 0.2 / 0.003},
+		{"sqrt", sim.FadeSqrt, 0.0258, math.Pow(0.2/0.0258, 2)},
+	} {
+		t.Run(c.name, func(t *testing.T) { packTruth(t, c.law, c.coeff, c.eol) })
+	}
+}
+
+func packTruth(t *testing.T, law sim.FadeLaw, coeff, truthEOL float64) {
 	r := newRig(t)
 	pack := sim.PackState{Serial: "FADE-1", Chemistry: sim.LiPo, CellsS: 4, CellsP: 1, RatedMah: 3000,
-		BaselineIRmOhm: 20, FadeLaw: sim.FadeLinear, FadeCoeff: 0.003, IRGrowth: 0.01, StartSoC: 1, CellSpread: 0.005}
+		BaselineIRmOhm: 20, FadeLaw: law, FadeCoeff: coeff, IRGrowth: 0.01, StartSoC: 1, CellSpread: 0.005}
 	af, _, pk := r.quad("FD-01", 0, pack)
 	start := time.Now().AddDate(0, 0, -70).UTC().Truncate(time.Hour)
 	cycles := 0.0
@@ -111,6 +130,14 @@ func TestPackTrendsRecoverSimulatorTruth(t *testing.T) {
 		cycles += truth.ChargeMah / pack.RatedMah
 		lastCap = p.CapacityMah()
 	}
+	// A rule with its own limits, beside the default programme's pack
+	// retirement (80 % SoH, 100 % rise).
+	soh85, rise50 := 85.0, 50.0
+	rule, err := r.db.CreateRule(r.ctx, &fleet.ServiceRule{Name: "pack watch", AppliesTo: "pack", SoHBelowPct: &soh85,
+		IRRisePct: &rise50, WarnAt: 0.9, Action: "inspect", Enabled: true})
+	if err != nil {
+		t.Fatal(err)
+	}
 	v, err := r.hs.Part(r.ctx, pk.ID)
 	if err != nil {
 		t.Fatal(err)
@@ -124,25 +151,98 @@ func TestPackTrendsRecoverSimulatorTruth(t *testing.T) {
 	// Resistance growth: truth R = R0 (1 + 0.01 n), i.e. 1 %/cycle; tolerance 15 % of it
 	// (in-flight step estimates are noisy: the acceptance for one flight is 10 %).
 	if pv.Resistance == nil || math.Abs(pv.Resistance.SlopePctPerCycle-1) > 0.15 {
-		t.Errorf("resistance trend %+v, want about 1 %%/cycle (simulator IRGrowth 0.01)", pv.Resistance)
+		t.Fatalf("resistance trend %+v, want about 1 %%/cycle (simulator IRGrowth 0.01)", pv.Resistance)
 	}
-	// Capacity fade: truth Q = Q0 (1 - 0.003 n), linear, a slope of -9 mAh per cycle.
-	// Capacity estimates come from rest voltages through wear's OCV table (from
-	// memory), which matches the simulator's (also from memory) only above 15 %
-	// charge; the flights land with at least a fifth left (common practice), and
-	// the flat middle of the curve makes each estimate sensitive to voltage noise,
-	// so the tolerances are 25 % on the slope and 5 % on the latest capacity.
-	if pv.Fade == nil {
-		t.Fatalf("no fade fit; capacity points %d, notes %v", len(pv.Capacity), v.Notes)
+	// Capacity estimates come from rest voltages through wear's OCV table
+	// (from memory), which matches the simulator's (also from memory) only
+	// above 15 % charge; the flights land with at least a fifth left (common
+	// practice), and the flat middle of the curve makes each estimate
+	// sensitive to voltage noise, so the tolerances are 25 % on the slope at
+	// the latest cycle and 5 % on the latest capacity.
+	fc := pv.Forecast
+	if fc == nil || fc.Model == "" {
+		t.Fatalf("no fade model; capacity points %d, notes %v", len(pv.Capacity), v.Notes)
 	}
-	t.Logf("fade model %s coef %v (residual SD %.1f mAh), capacity %.0f vs truth %.0f, resistance slope %.3f %%/cycle, %d capacity points",
-		pv.Fade.Model, pv.Fade.Coef, pv.Fade.ResidualSD, *pv.CapacityMah, lastCap, pv.Resistance.SlopePctPerCycle, len(pv.Capacity))
-	if pv.Fade.Model != "linear" || math.Abs(pv.Fade.Coef[1]/(-0.003*pack.RatedMah)-1) > 0.25 {
-		t.Errorf("fade %s slope %.2f mAh/cycle, simulator truth linear %.2f", pv.Fade.Model, pv.Fade.Coef[1], -0.003*pack.RatedMah)
+	t.Logf("fade model %s %v (backtest MAE %.1f mAh, residual SD %.1f mAh), capacity %.0f vs truth %.0f at %.1f cycles; "+
+		"end of life forecast %s cycles, interval [%s, %s], truth %.1f; resistance slope %.3f %%/cycle, %d capacity points",
+		fc.Model, fc.Params, fc.BacktestMAE, fc.ResidualSD, *pv.CapacityMah, lastCap, pv.Cycles, cyc(fc.FittedSustained),
+		cyc(fc.IntervalFrom), cyc(fc.IntervalTo), truthEOL, pv.Resistance.SlopePctPerCycle, len(pv.Capacity))
+	lawCap := func(n float64) float64 { p := pack; p.Cycles = n; return p.CapacityMah() }
+	slope, want := fc.Predict(pv.Cycles)-fc.Predict(pv.Cycles-1), lawCap(pv.Cycles)-lawCap(pv.Cycles-1)
+	if math.Abs(slope/want-1) > 0.25 {
+		t.Errorf("fade %s slope %.2f mAh/cycle at the latest cycle, simulator truth %.2f", fc.Model, slope, want)
 	}
 	if math.Abs(*pv.CapacityMah/lastCap-1) > 0.05 {
 		t.Errorf("capacity %.0f mAh, simulator truth %.0f", *pv.CapacityMah, lastCap)
 	}
+	// The interval holds the law's end of life.
+	if fc.IntervalFrom == nil || *fc.IntervalFrom > math.Ceil(truthEOL) || (fc.IntervalTo != nil && *fc.IntervalTo < math.Floor(truthEOL)) {
+		t.Errorf("end-of-life interval [%s, %s] misses the truth %.1f", cyc(fc.IntervalFrom), cyc(fc.IntervalTo), truthEOL)
+	}
+	// Resistance: truth rise 1 %/cycle, so the 100 % retire threshold at
+	// cycle 100 (computed).
+	rf := pv.Resistance.Forecast
+	t.Logf("resistance rise forecast: %s, %s cycles [%s, %s] (truth 100), reason %q", rf.Model, cyc(rf.FittedSustained),
+		cyc(rf.IntervalFrom), cyc(rf.IntervalTo), rf.Reason)
+	if rf.FittedSustained == nil || math.Abs(*rf.FittedSustained-100) > 15 || rf.IntervalFrom == nil || *rf.IntervalFrom > 100 ||
+		(rf.IntervalTo != nil && *rf.IntervalTo < 100) {
+		t.Errorf("resistance forecast %s [%s, %s], truth 100", cyc(rf.FittedSustained), cyc(rf.IntervalFrom), cyc(rf.IntervalTo))
+	}
+	// Each rule's own limit is forecast by the same machinery: a 50 % rise
+	// at cycle 50, and 85 % SoH where the law reaches it (computed).
+	sohTruth := 0.15 / coeff
+	if law == sim.FadeSqrt {
+		sohTruth = math.Pow(0.15/coeff, 2)
+	}
+	for _, c := range []struct {
+		what  string
+		l     *health.LimitView
+		truth float64
+	}{{"rise 50 %", rf.Limit(50), 50}, {"SoH 85 %", fc.Limit(85), sohTruth}, {"SoH 80 %", fc.Limit(80), truthEOL}} {
+		if c.l == nil {
+			t.Errorf("%s: no crossing in the view (limits %+v)", c.what, fc.Limits)
+			continue
+		}
+		t.Logf("%s: forecast %s [%s, %s], truth %.1f, date %v", c.what, cyc(c.l.FittedSustained), cyc(c.l.IntervalFrom), cyc(c.l.IntervalTo), c.truth, c.l.Date)
+		if c.l.FittedSustained == nil || c.l.Date == nil || c.l.IntervalFrom == nil || *c.l.IntervalFrom > math.Ceil(c.truth) ||
+			(c.l.IntervalTo != nil && *c.l.IntervalTo < math.Floor(c.truth)) {
+			t.Errorf("%s: interval [%s, %s] misses %.1f (or no date)", c.what, cyc(c.l.IntervalFrom), cyc(c.l.IntervalTo), c.truth)
+		}
+	}
+	// The due list dates the rule's resistance limit from the forecast
+	// (before, a resistance rise had no forecast date at all).
+	prog := schedule.NewProgramme(r.db, r.hs)
+	if _, err := prog.RecomputeAirframe(r.ctx, af.ID, []string{pk.ID}); err != nil {
+		t.Fatal(err)
+	}
+	items, err := r.db.DueItems(r.ctx, store.DueFilter{SubjectID: pk.ID})
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, it := range items {
+		if it.RuleID != rule.ID {
+			continue
+		}
+		for _, u := range it.Usage {
+			if u.Limit == "ir_rise_pct" {
+				found = true
+				if u.Forecast == nil || rf.Limit(50).Date == nil || u.Forecast.Sub(*rf.Limit(50).Date).Abs() > time.Hour {
+					t.Errorf("ir_rise_pct due forecast %v, health forecast %v", u.Forecast, rf.Limit(50).Date)
+				}
+			}
+		}
+	}
+	if !found {
+		t.Errorf("no ir_rise_pct usage among %d due items", len(items))
+	}
+}
+
+func cyc(p *float64) string {
+	if p == nil {
+		return "none"
+	}
+	return fmt.Sprintf("%.0f", *p)
 }
 
 // Two identical quads, one flying 30 % heavier: hover thrust scales with mass

@@ -226,6 +226,14 @@ func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s st
 	if err := json.Unmarshal(raw, &v); err != nil {
 		return err
 	}
+	if k := v.Pack; k != nil && p.Health != nil && missingLimit(r, k) {
+		// A rule newer than the stored view: forecast its limit now.
+		fresh, err := p.Health.Part(ctx, s.ID)
+		if err != nil {
+			return err
+		}
+		v = *fresh
+	}
 	if m := v.Motor; r.BearingPct != nil && m != nil && len(m.Series) > 0 {
 		// Bearing life used since the rule was last done: the cumulative
 		// consumption now less what it was then.
@@ -244,22 +252,33 @@ func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s st
 		add("bearing_pct", (total-before)*100, *r.BearingPct, recent/(p.Window.Hours()/24))
 	}
 	if k := v.Pack; k != nil {
-		if r.SoHBelowPct != nil && k.SoH != nil {
-			var perDay float64
-			if k.Forecast != nil && k.Forecast.Date != nil && k.SoH != nil {
-				// Fade forecast: the rate that reaches end of life on its date.
-				left := *k.SoH*100 - *r.SoHBelowPct
-				if d := k.Forecast.Date.Sub(now).Hours() / 24; d > 0 && left > 0 {
-					perDay = left / d
-				}
+		// The forecast's crossing of the rule's own limit, when the health
+		// view has it, gives the rate that reaches the limit on its date.
+		rate := func(left float64, l *health.LimitView) float64 {
+			if l == nil || l.Date == nil || !(left > 0) {
+				return 0
 			}
-			add("soh_below_pct", 100-*k.SoH*100, 100-*r.SoHBelowPct, perDay)
+			if d := l.Date.Sub(now).Hours() / 24; d > 0 {
+				return left / d
+			}
+			return 0
+		}
+		if r.SoHBelowPct != nil && k.SoH != nil {
+			add("soh_below_pct", 100-*k.SoH*100, 100-*r.SoHBelowPct, rate(*k.SoH*100-*r.SoHBelowPct, k.Forecast.Limit(*r.SoHBelowPct)))
 		}
 		if r.IRRisePct != nil && k.Resistance != nil {
-			add("ir_rise_pct", math.Max(0, k.Resistance.RisePct), *r.IRRisePct, 0)
+			used := math.Max(0, k.Resistance.RisePct)
+			add("ir_rise_pct", used, *r.IRRisePct, rate(*r.IRRisePct-used, k.Resistance.Forecast.Limit(*r.IRRisePct)))
 		}
 	}
 	return nil
+}
+
+// missingLimit reports whether a pack's health view has a forecast but not
+// the crossing of one of the rule's limits.
+func missingLimit(r *fleet.ServiceRule, k *health.PackView) bool {
+	return (r.SoHBelowPct != nil && k.Forecast != nil && k.Forecast.Limit(*r.SoHBelowPct) == nil) ||
+		(r.IRRisePct != nil && k.Resistance != nil && k.Resistance.Forecast != nil && k.Resistance.Forecast.Limit(*r.IRRisePct) == nil)
 }
 
 // Recomputed says what RecomputeAll did and how long each part took.

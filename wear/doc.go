@@ -42,14 +42,25 @@
 //     (discharge from full): charge / SoC span, refused below a minimum
 //     span (default 0.3). StateOfHealth = capacity / rated.
 //   - FitOLS(basis, x, y) is least squares by QR with residual SD, R^2,
-//     adjusted R^2, AICc and PredictionInterval (Student t). FitFade(points,
-//     models...) fits LinearBasis (Q = a + b n) and SqrtBasis
-//     (Q = a + b sqrt n) by default (QuadraticBasis on request) and keeps
-//     the lowest AICc. FadeFit.Forecast(threshold, level, horizon) and
-//     ForecastFraction(rated, fraction, ...) return EOLForecast: the first
-//     and sustained crossings, observed and fitted, and the cycles over
-//     which the prediction interval brackets the threshold. CycleDate turns
-//     a cycle into a date at a usage rate.
+//     adjusted R^2, AICc and PredictionInterval (Student t).
+//   - Trend forecasts (capacity fade, resistance rise): TrendModel
+//     candidates, each named with its source: LinearModel (common practice),
+//     SqrtModel (SEI growth), PowerModel (Q0 - a n^z, z in 0.3..1.5) and
+//     DoubleExpModel (a e^{bn} + c e^{dn}, He et al. 2011), the nonlinear
+//     ones fitted by variable projection with gonum's Nelder-Mead from a
+//     coarse grid; a model whose fit fails or does not converge is dropped.
+//     Forecast(points, settings) chooses the model by rolling-origin
+//     evaluation on the points' own past and builds the prediction interval
+//     from the rolling-origin errors per horizon (ForecastMethod states the
+//     method), over every candidate not clearly worse than the best; with
+//     fewer than 15 points, or before the trend has covered 10 % of the way
+//     to the threshold, it says "not enough history". The result carries the
+//     chosen model, its backtest error, every candidate, and the Crossing of
+//     the threshold: observed and fitted first and sustained crossings and
+//     the interval of the sustained one; CrossingAt gives other thresholds.
+//     CapacityForecast sets the threshold from rated capacity and an
+//     end-of-life fraction; ObservedCrossing reads crossings off the data.
+//     CycleDate turns a cycle into a date at a usage rate.
 //   - ResistanceRise (rise over baseline, Theil-Sen slope against cycles),
 //     CellImbalanceMV, DaysHeldFull (storage warning input), and
 //     PackStatus(readings, thresholds) -> serviceable / watch / retire with

@@ -20,14 +20,6 @@ type Basis struct {
 var LinearBasis = Basis{Name: "linear", Terms: []string{"a", "b"},
 	F: func(x float64) []float64 { return []float64{1, x} }}
 
-// SqrtBasis is y = a + b sqrt(x), the square-root-of-cycles fade law.
-var SqrtBasis = Basis{Name: "sqrt", Terms: []string{"a", "b"},
-	F: func(x float64) []float64 { return []float64{1, math.Sqrt(x)} }}
-
-// QuadraticBasis is y = a + b x + c x^2 (accelerating or decelerating fade).
-var QuadraticBasis = Basis{Name: "quadratic", Terms: []string{"a", "b", "c"},
-	F: func(x float64) []float64 { return []float64{1, x, x * x} }}
-
 // Fit is an ordinary least-squares fit of a Basis, with what is needed for
 // prediction intervals at new x.
 type Fit struct {

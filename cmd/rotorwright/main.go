@@ -114,6 +114,7 @@ maintenance personnel, the manufacturer's instructions and local aviation rules.
 		c.recomputeCmd(),
 		c.dueCmd(),
 		c.auditCmd(),
+		c.packCmd(),
 	)
 	return root
 }
