@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/pgtest"
 )
 
 const tech, pilot, admin = fleet.RoleTechnician, fleet.RolePilot, fleet.RoleAdmin
@@ -292,7 +293,7 @@ func TestRequestLimitsAndInternalErrors(t *testing.T) {
 	}
 	// Break this test's own database under the service: a 500 tells nothing
 	// of the SQL or the table.
-	if _, err := e.db.Pool().Exec(t.Context(), `DROP TABLE jobs CASCADE`); err != nil {
+	if _, err := pgtest.OwnerConn(t, e.db.Pool().Config().ConnString()).Exec(t.Context(), `DROP TABLE jobs CASCADE`); err != nil {
 		t.Fatal(err)
 	}
 	r := e.call("GET", "/v1/jobs", fleet.RoleViewer, nil)

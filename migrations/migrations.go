@@ -17,6 +17,11 @@ var files embed.FS
 // VersionTable records the applied schema version.
 const VersionTable = "public.schema_version"
 
+// ServiceRole is the role migration 008 grants the service's privileges
+// to: row reads and writes, INSERT and SELECT only on the audit log, no
+// ownership. The service connects as it (given LOGIN) or as a member of it.
+const ServiceRole = "rotorwright_service"
+
 // Migrate applies every pending migration on conn. tern holds a session
 // advisory lock while it runs, so replicas starting together migrate once.
 func Migrate(ctx context.Context, conn *pgx.Conn, logf func(string, ...any)) error {

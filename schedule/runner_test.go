@@ -13,6 +13,7 @@ import (
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 
+	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/schedule"
 )
 
@@ -45,6 +46,16 @@ func exec(t *testing.T, pool *pgxpool.Pool, sql string, args ...any) {
 	}
 }
 
+// ownerExec runs DDL as the database's owner: the service's role, which the
+// pools connect as, may not create tables (the owner's default privileges
+// then grant it the rows).
+func ownerExec(t *testing.T, pool *pgxpool.Pool, sql string) {
+	t.Helper()
+	if _, err := pgtest.OwnerConn(t, pool.Config().ConnString()).Exec(context.Background(), sql); err != nil {
+		t.Fatalf("%s: %v", sql, err)
+	}
+}
+
 func count(t *testing.T, pool *pgxpool.Pool, sql string, args ...any) int {
 	t.Helper()
 	var n int
@@ -59,7 +70,7 @@ func count(t *testing.T, pool *pgxpool.Pool, sql string, args ...any) int {
 func TestRunNowTwoReplicasOneRuns(t *testing.T) {
 	t.Parallel()
 	pools := replicaPools(t, 2)
-	exec(t, pools[0], `CREATE TABLE scratch (round int)`)
+	ownerExec(t, pools[0], `CREATE TABLE scratch (round int)`)
 	var calls atomic.Int32
 	var round int
 	var otherDone chan struct{}
@@ -195,7 +206,7 @@ func TestInterruptedRunRollsBack(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
 			pool := replicaPools(t, 1)[0]
-			exec(t, pool, `CREATE TABLE scratch (n int)`)
+			ownerExec(t, pool, `CREATE TABLE scratch (n int)`)
 			r := newRunner(t, pool)
 			err := r.Register("writer", "", func(ctx context.Context, tx pgx.Tx) (map[string]int, error) {
 				for i := range 3 {
@@ -240,7 +251,7 @@ func TestInterruptedRunRollsBack(t *testing.T) {
 func TestRunConnectionLost(t *testing.T) {
 	t.Parallel()
 	pool := replicaPools(t, 1)[0]
-	exec(t, pool, `CREATE TABLE scratch (n int)`)
+	ownerExec(t, pool, `CREATE TABLE scratch (n int)`)
 	r := newRunner(t, pool)
 	killed := make(chan struct{})
 	pids := make(chan int, 1)

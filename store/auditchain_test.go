@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -88,7 +89,8 @@ func TestAuditChainDetectsTampering(t *testing.T) {
 	}
 	tamper := func(sql string, args ...any) {
 		t.Helper()
-		tx, err := f.db.Pool().Begin(f.ctx)
+		// Only the owner can: the service's role may not disable triggers.
+		tx, err := pgtest.OwnerConn(t, f.db.Pool().Config().ConnString()).Begin(f.ctx)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -131,7 +133,7 @@ func TestAuditChainDetectsTampering(t *testing.T) {
 // deleteAuditRow removes a row as the database owner, trigger disabled.
 func deleteAuditRow(t *testing.T, f *fixture, where string) {
 	t.Helper()
-	tx, err := f.db.Pool().Begin(f.ctx)
+	tx, err := pgtest.OwnerConn(t, f.db.Pool().Config().ConnString()).Begin(f.ctx)
 	if err != nil {
 		t.Fatal(err)
 	}

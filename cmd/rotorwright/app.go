@@ -12,11 +12,13 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/internal/pglocal"
+	"github.com/rotorwright/rotorwright/migrations"
 	"github.com/rotorwright/rotorwright/schedule"
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -46,9 +48,23 @@ func newApp(cfg Config, stdout, stderr io.Writer) *App {
 	return &App{cfg: cfg, command: "serve", out: stdout, errOut: stderr, log: log, Addr: make(chan string, 1)}
 }
 
-// Open starts the embedded database when no URL is configured, connects and
-// migrates: the start of serve and demo.
-func (a *App) Open(ctx context.Context) error { return a.open(ctx, false, true) }
+// Open starts the embedded database when no URL is configured, migrates as
+// the schema owner and connects as the service role: the start of serve and
+// demo. It warns when the service's role could change the audit log.
+func (a *App) Open(ctx context.Context) error {
+	if err := a.open(ctx, false, true); err != nil {
+		return err
+	}
+	role, privileged, err := a.DB.Privileged(ctx)
+	if err != nil {
+		return fmt.Errorf("privileges of the service's role: %w", err)
+	}
+	if privileged {
+		a.log.Warn("the service connects as a role that can change or remove audit-log rows; connect as a member of "+
+			migrations.ServiceRole+" instead (README: least privilege)", "role", role)
+	}
+	return nil
+}
 
 // openForTool is Open for commands that may run beside a serving instance:
 // they use its embedded cluster when one is running in the home folder. Only
@@ -56,8 +72,9 @@ func (a *App) Open(ctx context.Context) error { return a.open(ctx, false, true) 
 func (a *App) openForTool(ctx context.Context, migrate bool) error { return a.open(ctx, true, migrate) }
 
 func (a *App) open(ctx context.Context, attach, migrate bool) error {
-	url := a.cfg.DatabaseURL
-	if url == "" {
+	serviceURL, ownerURL := a.cfg.DatabaseURL, a.cfg.OwnerDatabaseURL
+	embedded := serviceURL == ""
+	if embedded {
 		opts := pglocal.Options{Dir: a.cfg.Home, Database: "rotorwright",
 			Logf: func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }}
 		var c *pglocal.Cluster
@@ -74,18 +91,53 @@ func (a *App) open(ctx context.Context, attach, migrate bool) error {
 			a.log.Info("using the embedded PostgreSQL of a running rotorwright", "pid", o.PID, "command", o.Command, "home", a.cfg.Home)
 		}
 		a.cluster = c
-		url = c.URL("rotorwright")
+		// The cluster's superuser owns the schema; the service connects
+		// as the least-privilege role, without a password: only the
+		// server's account reaches the socket.
+		ownerURL, serviceURL = c.URL(""), c.URLAs(migrations.ServiceRole, "")
 	}
-	db, err := store.Open(ctx, url)
+	if ownerURL == "" {
+		ownerURL = serviceURL
+	}
+	// The embedded cluster's schema is checked as the owner too: in a home
+	// from before the service role existed, connecting as that role fails.
+	if migrate || embedded {
+		if err := a.ownerSchema(ctx, ownerURL, migrate, embedded); err != nil {
+			return err
+		}
+	}
+	db, err := store.Open(ctx, serviceURL)
 	if err != nil {
 		return err
 	}
 	a.DB = db
-	if !migrate {
-		return db.CheckSchema(ctx)
+	return db.CheckSchema(ctx)
+}
+
+// ownerSchema connects as the schema's owner and migrates (when migrate is
+// set and migrations are pending) or checks that the schema is current. On
+// the embedded cluster it then lets the service role log in.
+func (a *App) ownerSchema(ctx context.Context, ownerURL string, migrate, embedded bool) error {
+	owner, err := store.Open(ctx, ownerURL)
+	if err != nil {
+		return err
 	}
-	if err := db.Migrate(ctx, func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }); err != nil {
+	defer owner.Close()
+	err = owner.CheckSchema(ctx)
+	if !migrate || !errors.Is(err, store.ErrSchemaBehind) {
+		if err != nil {
+			return err
+		}
+	} else if err := owner.Migrate(ctx, func(f string, args ...any) { a.log.Info(fmt.Sprintf(f, args...)) }); err != nil {
+		var pgErr *pgconn.PgError
+		if errors.As(err, &pgErr) && pgErr.Code == "42501" && a.cfg.OwnerDatabaseURL == "" && !embedded {
+			return fmt.Errorf("migrate: %w: migrations run as the schema's owner; DATABASE_URL's role may not change the schema: "+
+				"give the owner's URL in ROTORWRIGHT_OWNER_DATABASE_URL (--owner-database-url)", err)
+		}
 		return fmt.Errorf("migrate: %w", err)
+	}
+	if embedded {
+		return owner.AllowServiceLogin(ctx)
 	}
 	return nil
 }

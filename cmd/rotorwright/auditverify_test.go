@@ -35,10 +35,11 @@ func TestAuditVerifyCommand(t *testing.T) {
 	if err := db.Pool().QueryRow(ctx, `SELECT id FROM audit_log ORDER BY id OFFSET 1 LIMIT 1`).Scan(&id); err != nil {
 		t.Fatal(err)
 	}
+	owner := pgtest.OwnerConn(t, db.Pool().Config().ConnString()) // only the owner can tamper
 	for _, q := range []string{`ALTER TABLE audit_log DISABLE TRIGGER audit_log_no_update`,
 		fmt.Sprintf(`UPDATE audit_log SET actor_name = 'somebody else' WHERE id = %d`, id),
 		`ALTER TABLE audit_log ENABLE TRIGGER audit_log_no_update`} {
-		if _, err := db.Pool().Exec(ctx, q); err != nil {
+		if _, err := owner.Exec(ctx, q); err != nil {
 			t.Fatal(err)
 		}
 	}

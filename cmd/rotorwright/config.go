@@ -12,10 +12,15 @@ import (
 // Config is the service configuration, from the environment and flags,
 // checked once at start-up.
 type Config struct {
-	DatabaseURL string
-	Home        string
-	Addr        string
-	LogLevel    slog.Level
+	// DatabaseURL is the service's connection: a member of the
+	// least-privilege role (migrations.ServiceRole). OwnerDatabaseURL, when
+	// set, is the schema owner's, used only to apply migrations; unset,
+	// migrations use DatabaseURL.
+	DatabaseURL      string
+	OwnerDatabaseURL string
+	Home             string
+	Addr             string
+	LogLevel         slog.Level
 	// Webhooks receive due-status notifications; private and loopback
 	// targets need WebhooksAllowPrivate / WebhooksAllowLoopback (SSRF guard).
 	Webhooks              []string
@@ -28,9 +33,10 @@ type Config struct {
 // ConfigFromEnv reads the environment.
 func ConfigFromEnv() (Config, error) {
 	c := Config{
-		DatabaseURL: os.Getenv("DATABASE_URL"),
-		Home:        envOr("ROTORWRIGHT_HOME", "./.rotorwright"),
-		Addr:        envOr("ROTORWRIGHT_ADDR", "127.0.0.1:8080"),
+		DatabaseURL:      os.Getenv("DATABASE_URL"),
+		OwnerDatabaseURL: os.Getenv("ROTORWRIGHT_OWNER_DATABASE_URL"),
+		Home:             envOr("ROTORWRIGHT_HOME", "./.rotorwright"),
+		Addr:             envOr("ROTORWRIGHT_ADDR", "127.0.0.1:8080"),
 	}
 	for _, u := range strings.Split(os.Getenv("ROTORWRIGHT_WEBHOOKS"), ",") {
 		if u = strings.TrimSpace(u); u != "" {
@@ -67,9 +73,17 @@ func hideDefault(fs *pflag.FlagSet, name string) {
 	}
 }
 
+// bindOwner adds the flag of the commands that apply migrations.
+func (c *Config) bindOwner(fs *pflag.FlagSet) {
+	fs.StringVar(&c.OwnerDatabaseURL, "owner-database-url", c.OwnerDatabaseURL,
+		"PostgreSQL URL of the schema owner, used only to apply migrations (env ROTORWRIGHT_OWNER_DATABASE_URL; empty: --database-url)")
+	hideDefault(fs, "owner-database-url")
+}
+
 // bindServe adds the flags of the commands that serve the API.
 func (c *Config) bindServe(fs *pflag.FlagSet) {
 	c.bindDatabase(fs)
+	c.bindOwner(fs)
 	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address; 127.0.0.1:0 picks a free port (env ROTORWRIGHT_ADDR)")
 	fs.StringSliceVar(&c.Webhooks, "webhook", c.Webhooks, "URL for due-status notifications, repeatable (env ROTORWRIGHT_WEBHOOKS, comma-separated)")
 	fs.BoolVar(&c.WebhooksAllowPrivate, "webhooks-allow-private", c.WebhooksAllowPrivate, "allow webhook URLs on private addresses (env ROTORWRIGHT_WEBHOOKS_ALLOW_PRIVATE)")

@@ -23,6 +23,9 @@ func (c *cli) tool(cmd *cobra.Command, body func(ctx context.Context, app *App, 
 // (the migrate command), else it refuses a schema that is behind.
 func (c *cli) toolMigrating(cmd *cobra.Command, migrate bool, body func(ctx context.Context, app *App, args []string) error) *cobra.Command {
 	c.cfg.bindDatabase(cmd.Flags())
+	if migrate {
+		c.cfg.bindOwner(cmd.Flags())
+	}
 	if cmd.Args == nil {
 		cmd.Args = noArgs
 	}

@@ -3,6 +3,12 @@
 // ROTORWRIGHT_TEST_DATABASE_URL), one template database prepared once, and a
 // fresh clone of it for every test that asks.
 //
+// Tests connect as the service does, with its least privilege: NewDB's URL
+// logs in as a role of this test binary that is a member of
+// migrations.ServiceRole (which prepare must create: the migrations do).
+// OwnerURL gives the same database as the owner, for tests that must do what
+// the service cannot (tamper with the audit log, drop a table).
+//
 //	func TestMain(m *testing.M) { pgtest.Main(m, migrateForTests) }
 //	func TestX(t *testing.T) { t.Parallel(); url := pgtest.NewDB(t); ... }
 package pgtest
@@ -23,13 +29,15 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 
 	"github.com/rotorwright/rotorwright/internal/pglocal"
+	"github.com/rotorwright/rotorwright/migrations"
 )
 
 // EnvURL names the variable that points the tests at an existing server
-// instead of a throwaway cluster. Its role needs CREATEDB; the server must be
-// PostgreSQL 13 or later (DROP DATABASE ... WITH (FORCE)).
+// instead of a throwaway cluster. Its role needs CREATEDB and CREATEROLE; the
+// server must be PostgreSQL 13 or later (DROP DATABASE ... WITH (FORCE)).
 const EnvURL = "ROTORWRIGHT_TEST_DATABASE_URL"
 
 // current is the harness Main set up for this test binary.
@@ -41,6 +49,9 @@ type harness struct {
 	prefix   string // unique per test binary, so binaries can share a server
 	template string
 	seq      atomic.Int64
+	// service logs in as a member of migrations.ServiceRole, made for this
+	// binary so binaries sharing a server do not share a password.
+	service, servicePassword string
 
 	// mu serialises use of admin: a pgx.Conn is not safe for concurrent use,
 	// and concurrent clones of one template can fail with "source database
@@ -141,6 +152,10 @@ func newHarness(ctx context.Context, adminURL string, prepare func(ctx context.C
 			return nil, fmt.Errorf("prepare template database: %w", err)
 		}
 	}
+	if err := h.makeServiceLogin(ctx); err != nil {
+		_ = h.close(ctx, true)
+		return nil, err
+	}
 	// Cloning needs the template free of sessions: refuse new ones and end
 	// any a careless prepare left open.
 	_, err = admin.Exec(ctx, "ALTER DATABASE "+ident(h.template)+" ALLOW_CONNECTIONS false")
@@ -155,25 +170,97 @@ func newHarness(ctx context.Context, adminURL string, prepare func(ctx context.C
 	return h, nil
 }
 
-// close drops the template when asked (a shared server) and disconnects.
+// makeServiceLogin creates this binary's login role in the service role.
+func (h *harness) makeServiceLogin(ctx context.Context) error {
+	pw := make([]byte, 16)
+	if _, err := rand.Read(pw); err != nil {
+		return err
+	}
+	h.service, h.servicePassword = h.prefix+"_svc", hex.EncodeToString(pw)
+	// Hex, so the literal needs no quoting beyond the quotes.
+	_, err := h.admin.Exec(ctx, "CREATE ROLE "+ident(h.service)+" LOGIN PASSWORD '"+h.servicePassword+"' IN ROLE "+
+		ident(migrations.ServiceRole))
+	if err != nil {
+		return fmt.Errorf("create the tests' service login (prepare must create role %s, as the migrations do): %w",
+			migrations.ServiceRole, err)
+	}
+	return nil
+}
+
+// close drops the template and the service login when asked (a shared
+// server) and disconnects.
 func (h *harness) close(ctx context.Context, dropTemplate bool) error {
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	var err error
 	if dropTemplate {
 		_, err = h.admin.Exec(ctx, "DROP DATABASE IF EXISTS "+ident(h.template)+" WITH (FORCE)")
+		if h.service != "" {
+			_, err2 := h.admin.Exec(ctx, "DROP ROLE IF EXISTS "+ident(h.service))
+			err = errors.Join(err, err2)
+		}
 	}
 	return errors.Join(err, h.admin.Close(ctx))
 }
 
 // NewDB returns the URL of a new database cloned from the template, dropped
-// when the test ends. Safe from parallel tests.
+// when the test ends, connecting with the service's privileges. Safe from
+// parallel tests.
 func NewDB(t testing.TB) string {
 	t.Helper()
-	if current == nil {
-		t.Fatal("pgtest: NewDB needs pgtest.Main called from TestMain")
+	h := harnessFor(t)
+	return h.asService(h.newDB(t))
+}
+
+// OwnerURL returns the URL of the database dbURL names, connecting as its
+// owner: for tests that must do what the service cannot.
+func OwnerURL(t testing.TB, dbURL string) string {
+	t.Helper()
+	return withDatabase(harnessFor(t).adminURL, databaseOf(t, dbURL))
+}
+
+// OwnerConn connects to the database dbURL names as its owner (dbURL may be
+// a pool's pool.Config().ConnString()), closed when the test ends.
+func OwnerConn(t testing.TB, dbURL string) *pgx.Conn {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	conn, err := pgx.Connect(ctx, OwnerURL(t, dbURL))
+	if err != nil {
+		t.Fatalf("pgtest: connect as owner: %v", err)
 	}
-	return current.newDB(t)
+	t.Cleanup(func() { conn.Close(context.Background()) })
+	return conn
+}
+
+// ServiceURL returns the URL of the database dbURL names, connecting with
+// the service's privileges.
+func ServiceURL(t testing.TB, dbURL string) string {
+	t.Helper()
+	h := harnessFor(t)
+	return h.asService(withDatabase(h.adminURL, databaseOf(t, dbURL)))
+}
+
+func harnessFor(t testing.TB) *harness {
+	t.Helper()
+	if current == nil {
+		t.Fatal("pgtest: needs pgtest.Main called from TestMain")
+	}
+	return current
+}
+
+func databaseOf(t testing.TB, dbURL string) string {
+	t.Helper()
+	cfg, err := pgconn.ParseConfig(dbURL)
+	if err != nil {
+		t.Fatalf("pgtest: %v", err)
+	}
+	return cfg.Database
+}
+
+// asService returns connURL logging in as the service login.
+func (h *harness) asService(connURL string) string {
+	return withUser(connURL, h.service, h.servicePassword)
 }
 
 // NewConn returns a connection to a new database cloned from the template,
@@ -193,14 +280,11 @@ func NewConn(t testing.TB) *pgx.Conn {
 }
 
 // NewEmptyDB returns the URL of a new database that no migration has
-// touched, for tests of what happens before migrate; dropped when the test
-// ends.
+// touched, connecting as its owner, for tests of what happens before
+// migrate; dropped when the test ends.
 func NewEmptyDB(t testing.TB) string {
 	t.Helper()
-	if current == nil {
-		t.Fatal("pgtest: NewEmptyDB needs pgtest.Main called from TestMain")
-	}
-	return current.createDB(t, "template0")
+	return harnessFor(t).createDB(t, "template0")
 }
 
 func (h *harness) newDB(t testing.TB) string {
@@ -266,6 +350,20 @@ func withDatabase(connURL, db string) string {
 	}
 	// In keyword/value strings a later keyword overrides an earlier one.
 	return connURL + " dbname='" + strings.ReplaceAll(db, "'", `\'`) + "'"
+}
+
+// withUser returns connURL logging in as user with password; it accepts
+// both URL and keyword/value connection strings.
+func withUser(connURL, user, password string) string {
+	if strings.HasPrefix(connURL, "postgres://") || strings.HasPrefix(connURL, "postgresql://") {
+		u, err := url.Parse(connURL)
+		if err == nil {
+			u.User = url.UserPassword(user, password)
+			return u.String()
+		}
+	}
+	q := func(s string) string { return "'" + strings.ReplaceAll(s, "'", `\'`) + "'" }
+	return connURL + " user=" + q(user) + " password=" + q(password)
 }
 
 // redact hides a password in connURL for error messages.

@@ -2,6 +2,7 @@ package pgtest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"strings"
 	"testing"
@@ -10,15 +11,76 @@ import (
 	"github.com/jackc/pgx/v5/pgconn"
 )
 
-// seed stands in for the migrations a real caller runs on the template.
+// seed stands in for the migrations a real caller runs on the template,
+// the service role and its grants included.
 func seed(ctx context.Context, url string) error {
 	conn, err := pgx.Connect(ctx, url)
 	if err != nil {
 		return err
 	}
 	defer conn.Close(ctx)
-	_, err = conn.Exec(ctx, `create table seeded (v text); insert into seeded values ('from template')`)
+	_, err = conn.Exec(ctx, `
+		DO $$ BEGIN CREATE ROLE rotorwright_service NOLOGIN;
+		EXCEPTION WHEN duplicate_object OR unique_violation THEN NULL; END $$;
+		create table seeded (v text); insert into seeded values ('from template');
+		grant select, insert, update, delete on seeded to rotorwright_service;
+		alter default privileges in schema public grant select, insert on tables to rotorwright_service`)
 	return err
+}
+
+// ownerConn connects to a new clone as its owner, which may create tables.
+func ownerConn(t *testing.T) *pgx.Conn {
+	t.Helper()
+	conn, err := pgx.Connect(t.Context(), OwnerURL(t, NewDB(t)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { conn.Close(context.Background()) })
+	return conn
+}
+
+// NewDB connects as this binary's login in the service role, which may use
+// the rows the grants give it and may not create tables; OwnerURL reaches
+// the same database as the owner.
+func TestServiceAndOwner(t *testing.T) {
+	t.Parallel()
+	u := NewDB(t)
+	svc, err := pgx.Connect(t.Context(), u)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer svc.Close(context.Background())
+	var user, db string
+	var member bool
+	if err := svc.QueryRow(t.Context(), `select current_user, current_database(), pg_has_role('rotorwright_service', 'MEMBER')`).
+		Scan(&user, &db, &member); err != nil {
+		t.Fatal(err)
+	}
+	if user != current.service || !member {
+		t.Errorf("NewDB connects as %s (member of the service role: %v), want %s", user, member, current.service)
+	}
+	if _, err := svc.Exec(t.Context(), `insert into seeded values ('by the service')`); err != nil {
+		t.Errorf("the service may not write a granted table: %v", err)
+	}
+	var pgErr *pgconn.PgError
+	if _, err := svc.Exec(t.Context(), `create table mine (x int)`); !errors.As(err, &pgErr) || pgErr.Code != "42501" {
+		t.Errorf("the service created a table: %v", err)
+	}
+	owner, err := pgx.Connect(t.Context(), OwnerURL(t, u))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer owner.Close(context.Background())
+	var ownerUser, ownerDB string
+	if err := owner.QueryRow(t.Context(), `select current_user, current_database()`).Scan(&ownerUser, &ownerDB); err != nil {
+		t.Fatal(err)
+	}
+	if ownerDB != db || ownerUser == user {
+		t.Errorf("OwnerURL: %s on %s; the service: %s on %s", ownerUser, ownerDB, user, db)
+	}
+	if back := ServiceURL(t, OwnerURL(t, u)); back != u {
+		t.Errorf("ServiceURL(OwnerURL(u)) = %s, want %s", back, u)
+	}
 }
 
 func TestMain(m *testing.M) { Main(m, seed) }
@@ -34,7 +96,7 @@ func tableExists(t *testing.T, conn *pgx.Conn, table string) bool {
 
 func TestDatabasesAreIsolatedClones(t *testing.T) {
 	t.Parallel()
-	a, b := NewConn(t), NewConn(t)
+	a, b := ownerConn(t), ownerConn(t)
 	for _, c := range []*pgx.Conn{a, b} {
 		var v string
 		if err := c.QueryRow(t.Context(), `select v from seeded`).Scan(&v); err != nil {
@@ -68,7 +130,7 @@ func TestParallelClones(t *testing.T) {
 	for i := range 6 {
 		t.Run(fmt.Sprint(i), func(t *testing.T) {
 			t.Parallel()
-			c := NewConn(t)
+			c := ownerConn(t)
 			if _, err := c.Exec(t.Context(), `create table mine (who int)`); err != nil {
 				t.Fatal(err)
 			}
@@ -162,6 +224,10 @@ func TestWithDatabase(t *testing.T) {
 		}
 		if cfg.Database != "rwt_ab12_7_x" || cfg.User != "u" {
 			t.Errorf("%s: database %q user %q", base, cfg.Database, cfg.User)
+		}
+		cfg, err = pgconn.ParseConfig(withUser(base, "rwt_ab12_svc", "p'w"))
+		if err != nil || cfg.User != "rwt_ab12_svc" || cfg.Password != "p'w" {
+			t.Errorf("%s with user: %+v, %v", base, cfg, err)
 		}
 	}
 }
