@@ -118,14 +118,14 @@ func TestWalkthrough(t *testing.T) {
 	if len(tr.Jobs) != 1 || tr.Jobs[0].Code != "QUARRY-N" {
 		t.Fatalf("trace %+v", tr)
 	}
-	// Every write left an audit row: 1 airframe + 8 parts + 8 fits + 1 pack + 1 job + 1 flight
-	// + 1 analysis-free manual flight has none (+ the 4 keys made for the test through the store).
+	// Every write left an audit row: 1 airframe + 8 parts + 8 fits + 8 part status changes
+	// (stock -> fitted) + 1 pack + 1 job + 1 flight (+ the 4 keys made for the test through the store).
 	var audit struct {
 		Items []struct{ Entity, Route string } `json:"items"`
 	}
 	e.call("GET", "/v1/audit?limit=500", admin, nil).decode(t, &audit)
-	if len(audit.Items) != 24 {
-		t.Fatalf("%d audit rows, want 24", len(audit.Items))
+	if len(audit.Items) != 32 {
+		t.Fatalf("%d audit rows, want 32", len(audit.Items))
 	}
 	if last := audit.Items[len(audit.Items)-1]; last.Entity != "flight" || last.Route != "/v1/flights" {
 		t.Fatalf("last audit row %+v", last)

@@ -74,7 +74,7 @@ func (s *Server) fail(c *gin.Context, err error) {
 	if status == http.StatusInternalServerError {
 		p.Code, p.Type, p.Detail = fleet.EINTERNAL, "/problems/internal", "internal error"
 		s.log.Error("request failed", "err", err, "method", c.Request.Method, "path", c.Request.URL.Path,
-			"request_id", c.GetString(ctxRequestID))
+			"request_id", c.GetString(ctxRequestID), "client_request_id", c.GetString(ctxClientRequestID))
 	} else {
 		s.log.Debug("request refused", "code", code, "detail", p.Detail, "path", c.Request.URL.Path)
 	}

@@ -208,20 +208,33 @@ func matchPath(pattern, path string) bool {
 }
 
 const (
-	ctxRequestID = "request_id"
-	ctxKey       = "api_key"
+	ctxRequestID       = "request_id"
+	ctxClientRequestID = "client_request_id"
+	ctxKey             = "api_key"
 )
 
+// requestID gives every request an id of our own (in X-Request-ID on the
+// response, the logs and the audit log). A client's X-Request-ID is kept
+// beside it, never in its place: the client chooses it, so it cannot
+// identify a request on its own.
 func (s *Server) requestID() gin.HandlerFunc {
 	return func(c *gin.Context) {
-		id := c.GetHeader("X-Request-ID")
-		if id == "" || len(id) > 64 {
-			b := make([]byte, 8)
-			_, _ = rand.Read(b)
-			id = hex.EncodeToString(b)
-		}
+		b := make([]byte, 8)
+		_, _ = rand.Read(b)
+		id := hex.EncodeToString(b)
 		c.Set(ctxRequestID, id)
 		c.Header("X-Request-ID", id)
+		if client := c.GetHeader("X-Request-ID"); client != "" {
+			if len(client) > 200 {
+				s.fail(c, fleet.FieldError("X-Request-ID", "must be at most 200 characters"))
+				return
+			}
+			if err := headerText("X-Request-ID", client); err != nil {
+				s.fail(c, err)
+				return
+			}
+			c.Set(ctxClientRequestID, client)
+		}
 		c.Next()
 	}
 }
@@ -247,7 +260,7 @@ func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 		}
 		c.Set(ctxKey, k)
 		ctx := store.WithActor(c.Request.Context(), store.Actor{
-			KeyID: k.ID, Name: k.Name, RequestID: c.GetString(ctxRequestID),
+			KeyID: k.ID, Name: k.Name, RequestID: c.GetString(ctxRequestID), ClientRequestID: c.GetString(ctxClientRequestID),
 			Method: c.Request.Method, Route: c.FullPath(),
 		})
 		c.Request = c.Request.WithContext(ctx)

@@ -160,20 +160,8 @@ func (db *DB) RetireAirframe(ctx context.Context, id string, version int) (*flee
 			return fleet.Errorf(fleet.ECONFLICT, "airframe %s is already retired", before.Code)
 		}
 		now := db.now()
-		rows, err := tx.Query(ctx, `
-			UPDATE fits SET during = tstzrange(lower(during), $2, '[)'), removal_reason = 'airframe retired'
-			WHERE airframe_id = $1 AND upper_inf(during) RETURNING part_id`, id, now)
-		if err != nil {
+		if _, err := closeFits(ctx, tx, fitsOfAirframe, id, now, "airframe retired"); err != nil {
 			return err
-		}
-		parts, err := pgx.CollectRows(rows, pgx.RowTo[string])
-		if err != nil {
-			return err
-		}
-		for _, pid := range parts {
-			if err := syncPartStatus(ctx, tx, pid); err != nil {
-				return err
-			}
 		}
 		out, err = scanAirframe(tx.QueryRow(ctx, `
 			UPDATE airframes SET retired_at = $2, version = version + 1, updated_at = now()

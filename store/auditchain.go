@@ -40,6 +40,7 @@ type auditRowText struct {
 	Actor                                                 *string
 	ActorName, RequestID, Method, Route, Entity, EntityID string
 	Before, After                                         *string
+	ClientRequestID                                       *string
 	PrevHash, Hash                                        []byte
 }
 
@@ -56,6 +57,9 @@ func (r *auditRowText) canonical() []byte {
 	}
 	auditField(&b, r.Before)
 	auditField(&b, r.After)
+	if r.ClientRequestID != nil { // only when set: older rows keep their form (migration 008)
+		auditField(&b, r.ClientRequestID)
+	}
 	return b.Bytes()
 }
 
@@ -90,11 +94,11 @@ type VerifyOptions struct {
 }
 
 const auditTextCols = `id, at, actor::text, actor_name, request_id, method, route, entity, entity_id,
-	before::text, after::text, prev_hash, hash`
+	before::text, after::text, client_request_id, prev_hash, hash`
 
 func scanAuditText(r pgx.Row, a *auditRowText) error {
 	return r.Scan(&a.ID, &a.At, &a.Actor, &a.ActorName, &a.RequestID, &a.Method, &a.Route, &a.Entity,
-		&a.EntityID, &a.Before, &a.After, &a.PrevHash, &a.Hash)
+		&a.EntityID, &a.Before, &a.After, &a.ClientRequestID, &a.PrevHash, &a.Hash)
 }
 
 // VerifyAudit walks the whole audit log in id order, recomputing every hash,

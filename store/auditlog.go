@@ -14,17 +14,19 @@ import (
 
 // AuditEntry is one row of the append-only audit log.
 type AuditEntry struct {
-	ID        int64           `json:"id"`
-	At        time.Time       `json:"at"`
-	Actor     *string         `json:"actor"`
-	ActorName string          `json:"actor_name"`
-	RequestID string          `json:"request_id"`
-	Method    string          `json:"method"`
-	Route     string          `json:"route"`
-	Entity    string          `json:"entity"`
-	EntityID  string          `json:"entity_id"`
-	Before    json.RawMessage `json:"before"`
-	After     json.RawMessage `json:"after"`
+	ID        int64     `json:"id"`
+	At        time.Time `json:"at"`
+	Actor     *string   `json:"actor"`
+	ActorName string    `json:"actor_name"`
+	RequestID string    `json:"request_id"`
+	// ClientRequestID is the X-Request-ID the client sent (null if none).
+	ClientRequestID *string         `json:"client_request_id"`
+	Method          string          `json:"method"`
+	Route           string          `json:"route"`
+	Entity          string          `json:"entity"`
+	EntityID        string          `json:"entity_id"`
+	Before          json.RawMessage `json:"before"`
+	After           json.RawMessage `json:"after"`
 	// PrevHash and Hash chain the rows (hex SHA-256; see VerifyAudit).
 	PrevHash string `json:"prev_hash"`
 	Hash     string `json:"hash"`
@@ -48,7 +50,7 @@ func (db *DB) Audit(ctx context.Context, f AuditFilter, p Page) ([]*AuditEntry, 
 		}
 	}
 	rows, err := db.pool.Query(ctx, `
-		SELECT id, at, actor, actor_name, request_id, method, route, entity, entity_id, before, after,
+		SELECT id, at, actor, actor_name, request_id, client_request_id, method, route, entity, entity_id, before, after,
 			encode(prev_hash, 'hex'), encode(hash, 'hex')
 		FROM audit_log
 		WHERE id > $1 AND ($2 = '' OR entity = $2) AND ($3 = '' OR entity_id = $3)
@@ -58,7 +60,7 @@ func (db *DB) Audit(ctx context.Context, f AuditFilter, p Page) ([]*AuditEntry, 
 	}
 	list, err := collect(rows, func(r pgx.Row) (*AuditEntry, error) {
 		var e AuditEntry
-		return &e, r.Scan(&e.ID, &e.At, &e.Actor, &e.ActorName, &e.RequestID, &e.Method, &e.Route,
+		return &e, r.Scan(&e.ID, &e.At, &e.Actor, &e.ActorName, &e.RequestID, &e.ClientRequestID, &e.Method, &e.Route,
 			&e.Entity, &e.EntityID, &e.Before, &e.After, &e.PrevHash, &e.Hash)
 	})
 	if err != nil {

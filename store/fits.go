@@ -153,6 +153,47 @@ func (db *DB) Remove(ctx context.Context, airframeID string, r RemovalRequest) (
 	return out, err
 }
 
+// openFitsOf selects the open fits closeFits ends: an airframe's or a part's.
+type openFitsOf string
+
+const (
+	fitsOfAirframe openFitsOf = `SELECT ` + fitCols + ` FROM fits WHERE airframe_id = $1 AND upper_inf(during) ORDER BY id FOR UPDATE`
+	fitsOfPart     openFitsOf = `SELECT ` + fitCols + ` FROM fits WHERE part_id = $1 AND upper_inf(during) ORDER BY id FOR UPDATE`
+)
+
+// closeFits ends the open fits of an airframe or part at `at` (at least a
+// second after each began) with a removal reason, each with its audit row,
+// and brings the parts' status along. Retirement and replacement remove
+// parts as surely as a removal does, so they leave the same record.
+func closeFits(ctx context.Context, tx pgx.Tx, of openFitsOf, id string, at time.Time, reason string) ([]*fleet.Fit, error) {
+	rows, err := tx.Query(ctx, string(of), id)
+	if err != nil {
+		return nil, err
+	}
+	open, err := collect(rows, scanFit)
+	if err != nil {
+		return nil, err
+	}
+	closed := make([]*fleet.Fit, 0, len(open))
+	for _, before := range open {
+		after, err := scanFit(tx.QueryRow(ctx, `
+			UPDATE fits SET during = tstzrange(lower(during), greatest($2, lower(during) + interval '1 second'), '[)'),
+				removal_reason = $3
+			WHERE id = $1 RETURNING `+fitCols, before.ID, at, reason))
+		if err != nil {
+			return nil, err
+		}
+		if err := audit(ctx, tx, "fit", after.ID, before, after); err != nil {
+			return nil, err
+		}
+		if err := syncPartStatus(ctx, tx, after.PartID); err != nil {
+			return nil, err
+		}
+		closed = append(closed, after)
+	}
+	return closed, nil
+}
+
 // Fitment is what an airframe carried at a moment.
 type Fitment struct {
 	AirframeID string             `json:"airframe_id"`

@@ -148,14 +148,25 @@ func (db *DB) UpdatePart(ctx context.Context, id string, version int, fn func(*f
 }
 
 // syncPartStatus sets a part fitted when it has an open fit and back to
-// stock when it has none (quarantine and retired stay as they are).
+// stock when it has none (quarantine and retired stay as they are), with an
+// audit row when the status changes.
 func syncPartStatus(ctx context.Context, tx pgx.Tx, partID string) error {
-	_, err := tx.Exec(ctx, `
+	before, err := scanPart(tx.QueryRow(ctx, `SELECT `+partCols+` FROM parts WHERE id = $1 FOR UPDATE`, partID))
+	if err != nil {
+		return err
+	}
+	after, err := scanPart(tx.QueryRow(ctx, `
 		WITH want AS (
 			SELECT CASE WHEN EXISTS (SELECT 1 FROM fits WHERE part_id = $1 AND upper_inf(during)) THEN 'fitted'
-			            WHEN status = 'fitted' THEN 'stock' ELSE status END AS status
+			            WHEN status = 'fitted' THEN 'stock' ELSE status END AS want_status
 			FROM parts WHERE id = $1)
-		UPDATE parts SET status = want.status, version = version + 1, updated_at = now()
-		FROM want WHERE id = $1 AND parts.status <> want.status`, partID)
-	return err
+		UPDATE parts SET status = want.want_status, version = version + 1, updated_at = now()
+		FROM want WHERE id = $1 AND parts.status <> want.want_status
+		RETURNING `+partCols, partID))
+	if err == pgx.ErrNoRows {
+		return nil // unchanged
+	} else if err != nil {
+		return err
+	}
+	return audit(ctx, tx, "part", partID, before, after)
 }

@@ -108,9 +108,12 @@ func schemaVersions(ctx context.Context, q migrations.Querier) (cur, latest int3
 type Actor struct {
 	KeyID     string // api key id; empty for the command line
 	Name      string
-	RequestID string
-	Method    string
-	Route     string
+	RequestID string // the service's own id of the request
+	// ClientRequestID is the X-Request-ID the client sent, if any: kept
+	// apart from ours because the client chooses it.
+	ClientRequestID string
+	Method          string
+	Route           string
 }
 
 type actorKey struct{}
@@ -170,10 +173,15 @@ func audit(ctx context.Context, tx pgx.Tx, entity, entityID string, before, afte
 	if err != nil {
 		return err
 	}
+	var client *string
+	if a.ClientRequestID != "" {
+		client = &a.ClientRequestID
+	}
 	_, err = tx.Exec(ctx, `
-		INSERT INTO audit_log (actor, actor_name, request_id, method, route, entity, entity_id, before, after)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
-		actor, a.Name, a.RequestID, a.Method, a.Route, entity, entityID, b, af)
+		INSERT INTO audit_log (actor, actor_name, request_id, client_request_id, method, route, entity, entity_id,
+			before, after)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
+		actor, a.Name, a.RequestID, client, a.Method, a.Route, entity, entityID, b, af)
 	return err
 }
 

@@ -103,12 +103,7 @@ func applyWork(ctx context.Context, tx pgx.Tx, w *fleet.WorkRecord) error {
 		if w.PartID == nil {
 			w.PartID = w.RemovedPartID
 		}
-		if _, err := tx.Exec(ctx, `
-			UPDATE fits SET during = tstzrange(lower(during), $2, '[)'), removal_reason = 'replaced (work record)'
-			WHERE part_id = $1 AND upper_inf(during)`, *w.RemovedPartID, w.At); err != nil {
-			return err
-		}
-		if err := syncPartStatus(ctx, tx, *w.RemovedPartID); err != nil {
+		if _, err := closeFits(ctx, tx, fitsOfPart, *w.RemovedPartID, w.At, "replaced (work record)"); err != nil {
 			return err
 		}
 		a, err := scanAirframe(tx.QueryRow(ctx, `SELECT `+airframeCols+` FROM airframes WHERE id = $1`, f.AirframeID))
@@ -128,9 +123,14 @@ func applyWork(ctx context.Context, tx pgx.Tx, w *fleet.WorkRecord) error {
 			}
 			return err
 		}
-		if _, err := tx.Exec(ctx, `
+		fit, err := scanFit(tx.QueryRow(ctx, `
 			INSERT INTO fits (id, part_id, airframe_id, kind, position, during)
-			VALUES ($1, $2, $3, $4, $5, tstzrange($6, NULL, '[)'))`, newID(), p.ID, a.ID, p.Kind, f.Position, w.At); err != nil {
+			VALUES ($1, $2, $3, $4, $5, tstzrange($6, NULL, '[)')) RETURNING `+fitCols,
+			newID(), p.ID, a.ID, p.Kind, f.Position, w.At))
+		if err != nil {
+			return err
+		}
+		if err := audit(ctx, tx, "fit", fit.ID, nil, fit); err != nil {
 			return err
 		}
 		return syncPartStatus(ctx, tx, p.ID)
@@ -138,16 +138,22 @@ func applyWork(ctx context.Context, tx pgx.Tx, w *fleet.WorkRecord) error {
 		if w.PartID == nil {
 			return fleet.FieldError("part_id", "say which part is retired")
 		}
-		if _, err := tx.Exec(ctx, `
-			UPDATE fits SET during = tstzrange(lower(during), greatest($2, lower(during) + interval '1 second'), '[)'),
-				removal_reason = 'retired (work record)'
-			WHERE part_id = $1 AND upper_inf(during)`, *w.PartID, w.At); err != nil {
+		if _, err := closeFits(ctx, tx, fitsOfPart, *w.PartID, w.At, "retired (work record)"); err != nil {
 			return err
 		}
-		_, err := tx.Exec(ctx, `
+		before, err := scanPart(tx.QueryRow(ctx, `SELECT `+partCols+` FROM parts WHERE id = $1 FOR UPDATE`, *w.PartID))
+		if err == pgx.ErrNoRows {
+			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "part_id", Message: "unknown part"}
+		} else if err != nil {
+			return err
+		}
+		after, err := scanPart(tx.QueryRow(ctx, `
 			UPDATE parts SET status = 'retired', retired_reason = $2, version = version + 1, updated_at = now()
-			WHERE id = $1`, *w.PartID, w.Work)
-		return err
+			WHERE id = $1 RETURNING `+partCols, *w.PartID, w.Work))
+		if err != nil {
+			return err
+		}
+		return audit(ctx, tx, "part", after.ID, before, after)
 	}
 	return nil
 }
