@@ -84,3 +84,48 @@ func TestValidationNamesTheFieldEveryTime(t *testing.T) {
 		t.Errorf("create with code null: %d %q", r.Status, p.Field)
 	}
 }
+
+// A required reason or name must have visible characters: zero-width
+// spaces, joiners, a BOM, Hangul fillers or the braille blank alone are
+// refused (before the fix a zero-width space passed as an override reason).
+func TestReasonsNeedVisibleCharacters(t *testing.T) {
+	e := newEnv(t)
+	a := e.quad("VZ-01")
+	now := time.Now().UTC().Truncate(time.Second)
+	ev := e.create("/v1/events", map[string]any{"kind": "overcurrent", "airframe_id": a.ID})
+	part := e.create("/v1/parts", map[string]any{"kind": "other", "serial": "VZ-O1"})
+	for _, blank := range []string{"\u200b", "\u200b\u200c\u200d", "\ufeff", " \u3164 ", "\u2800", "\u00a0\t"} {
+		cases := []struct {
+			name, method, path string
+			role               fleet.Role
+			body               any
+			field              string
+		}{
+			{"override reason", "POST", "/v1/flights", pilot, map[string]any{"airframe_id": a.ID, "pilot": "test pilot",
+				"takeoff_at": now.Add(-2 * time.Hour), "landing_at": now.Add(-time.Hour), "override_reason": blank}, "override_reason"},
+			{"pilot", "POST", "/v1/flights", tech, map[string]any{"airframe_id": a.ID, "pilot": blank,
+				"takeoff_at": now.Add(-2 * time.Hour), "landing_at": now.Add(-time.Hour), "override_reason": "ok"}, "pilot"},
+			{"hold reason", "PATCH", "/v1/airframes/" + a.ID, tech, map[string]any{"hold_reason": blank}, "hold_reason"},
+			{"retired reason", "PATCH", "/v1/parts/" + part.ID, tech, map[string]any{"status": "retired", "retired_reason": blank}, "retired_reason"},
+			{"resolution", "PATCH", "/v1/events/" + ev.ID, tech, map[string]any{"resolved": true, "resolution": blank}, "resolution"},
+			{"work", "POST", "/v1/work-records", tech, map[string]any{"action": "inspect", "work": blank, "performed_by": "p", "airframe_id": a.ID}, "work"},
+			{"performed by", "POST", "/v1/work-records", tech, map[string]any{"action": "inspect", "work": "w", "performed_by": blank, "airframe_id": a.ID}, "performed_by"},
+			{"key name", "POST", "/v1/keys", admin, map[string]any{"name": blank, "role": "viewer"}, "name"},
+		}
+		for _, c := range cases {
+			var headers []string
+			if c.method == "PATCH" {
+				headers = []string{"If-Match", e.call("GET", c.path, fleet.RoleViewer, nil).Header.Get("ETag")}
+			}
+			r := e.call(c.method, c.path, c.role, c.body, headers...)
+			if p := r.problem(t); r.Status != 400 || p.Field != c.field {
+				t.Errorf("%s %q: %d field %q (%s), want 400 naming %s", c.name, blank, r.Status, p.Field, p.Detail, c.field)
+			}
+		}
+	}
+	// Visible text in any script, or a symbol, passes.
+	cur := e.call("GET", "/v1/airframes/"+a.ID, fleet.RoleViewer, nil)
+	if r := e.call("PATCH", "/v1/airframes/"+a.ID, tech, map[string]any{"hold_reason": "\u200b🔧"}, "If-Match", cur.Header.Get("ETag")); r.Status != 200 {
+		t.Fatalf("a symbol as the reason: %d %s", r.Status, r.Body)
+	}
+}

@@ -99,8 +99,13 @@ func (p *Part) Validate() error {
 	default:
 		return FieldError("status", "must be stock, fitted, quarantine or retired")
 	}
-	if p.Status == PartRetired && (p.RetiredReason == nil || *p.RetiredReason == "") {
+	if p.Status == PartRetired && (p.RetiredReason == nil || !Visible(*p.RetiredReason)) {
 		return FieldError("retired_reason", "is required when status is retired")
+	}
+	if p.RetiredReason != nil {
+		if err := checkText("retired_reason", *p.RetiredReason, 1, 500); err != nil {
+			return err
+		}
 	}
 	specs, err := ValidateSpecs(p.Kind, p.Specs)
 	if err != nil {
@@ -117,16 +122,6 @@ func (p *Part) Rotation() Rotation {
 	}
 	_ = json.Unmarshal(p.Specs, &s)
 	return s.Rotation
-}
-
-func checkText(field, s string, min, max int) error {
-	if n := len([]rune(s)); n < min || n > max {
-		if min > 0 && n == 0 {
-			return FieldError(field, "is required")
-		}
-		return FieldError(field, "must be %d to %d characters", min, max)
-	}
-	return nil
 }
 
 // ETagVersion is the version an ETag names.

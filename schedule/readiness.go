@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"strings"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
@@ -162,7 +161,7 @@ func (p *Programme) Gate(ctx context.Context, f *fleet.Flight) error {
 		}
 		return err
 	}
-	if rd.Ready || (f.OverrideReason != nil && strings.TrimSpace(*f.OverrideReason) != "") {
+	if rd.Ready || (f.OverrideReason != nil && fleet.Visible(*f.OverrideReason)) {
 		return nil
 	}
 	return &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Blockers: rd.Blockers,

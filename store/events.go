@@ -122,7 +122,7 @@ func (db *DB) UpdateEvent(ctx context.Context, id string, version int, p EventPa
 		if p.Resolved != nil {
 			switch {
 			case *p.Resolved && before.ResolvedAt == nil:
-				if p.Resolution == nil || *p.Resolution == "" {
+				if p.Resolution == nil || !fleet.Visible(*p.Resolution) {
 					return fleet.FieldError("resolution", "say how the event was resolved")
 				}
 				resolve = true

@@ -135,6 +135,9 @@ func (db *DB) Remove(ctx context.Context, airframeID string, r RemovalRequest) (
 		if !r.At.After(before.FittedAt) {
 			return &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "at", Message: "must be after the part was fitted"}
 		}
+		if err := checkLen("reason", r.Reason, 500); err != nil {
+			return err
+		}
 		var reason *string
 		if r.Reason != "" {
 			reason = &r.Reason

@@ -20,7 +20,7 @@ const tokenPrefix = "rw_"
 // CreateKey makes a key and returns it with its token, shown only this once.
 func (db *DB) CreateKey(ctx context.Context, name string, role fleet.Role) (*fleet.APIKey, string, error) {
 	name = strings.TrimSpace(name)
-	if name == "" || len(name) > 120 {
+	if !fleet.Visible(name) || len(name) > 120 {
 		return nil, "", fleet.FieldError("name", "must be 1 to 120 characters")
 	}
 	if !role.Valid() {
