@@ -44,7 +44,11 @@ func (m *metrics) observe() gin.HandlerFunc {
 		if route == "" {
 			route = "unmatched"
 		}
-		m.requests.WithLabelValues(c.Request.Method, route, strconv.Itoa(c.Writer.Status())).Inc()
+		status := c.Writer.Status()
+		if c.GetBool(ctxClientGone) {
+			status = StatusClientGone
+		}
+		m.requests.WithLabelValues(c.Request.Method, route, strconv.Itoa(status)).Inc()
 		m.duration.WithLabelValues(c.Request.Method, route).Observe(time.Since(start).Seconds())
 	}
 }

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"errors"
 	"log/slog"
 	"net/http"
@@ -10,6 +11,13 @@ import (
 
 	"github.com/rotorwright/rotorwright/fleet"
 )
+
+// StatusClientGone is the status logged (and counted in the metrics, never
+// sent) for a request whose client went away before the answer; the number
+// is the common convention for it.
+const StatusClientGone = 499
+
+const ctxClientGone = "client_gone"
 
 // statusOf maps each fleet error code to one HTTP status.
 var statusOf = map[string]int{
@@ -51,6 +59,15 @@ type ProblemError struct {
 // fail renders err as a problem and aborts the request. Errors that are not
 // domain errors are logged in full and reach the client as "internal error".
 func (s *Server) fail(c *gin.Context, err error) {
+	if ctxErr := c.Request.Context().Err(); errors.Is(ctxErr, context.Canceled) {
+		// The client went away: no one reads an answer, and the failure
+		// that followed (a cancelled query) is not the service's.
+		c.Set(ctxClientGone, true)
+		s.log.Info("client went away", "status", StatusClientGone, "method", c.Request.Method,
+			"path", c.Request.URL.Path, "request_id", c.GetString(ctxRequestID), "err", err)
+		c.Abort()
+		return
+	}
 	code := fleet.ErrorCode(err)
 	status := statusOf[code]
 	if status == 0 {
@@ -75,11 +92,19 @@ func (s *Server) fail(c *gin.Context, err error) {
 		p.Code, p.Type, p.Detail = fleet.EINTERNAL, "/problems/internal", "internal error"
 		s.log.Error("request failed", "err", err, "method", c.Request.Method, "path", c.Request.URL.Path,
 			"request_id", c.GetString(ctxRequestID), "client_request_id", c.GetString(ctxClientRequestID))
+	} else if status == http.StatusServiceUnavailable {
+		s.log.Warn("request unavailable", "detail", p.Detail, "method", c.Request.Method, "path", c.Request.URL.Path,
+			"request_id", c.GetString(ctxRequestID), "err", err)
 	} else {
 		s.log.Debug("request refused", "code", code, "detail", p.Detail, "path", c.Request.URL.Path)
 	}
-	if status == http.StatusUnauthorized {
+	switch status {
+	case http.StatusUnauthorized:
 		c.Header("WWW-Authenticate", `Bearer realm="rotorwright"`)
+	case http.StatusServiceUnavailable, http.StatusTooManyRequests:
+		if c.Writer.Header().Get("Retry-After") == "" {
+			c.Header("Retry-After", "5") // seconds: a database restart or a full queue passes soon
+		}
 	}
 	c.Header("Content-Type", "application/problem+json")
 	c.AbortWithStatusJSON(status, p)

@@ -8,7 +8,10 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
+	"net"
 	"strings"
+	"syscall"
 	"time"
 
 	"github.com/google/uuid"
@@ -256,16 +259,29 @@ func translate(err error) error {
 		case "22003": // numeric_value_out_of_range
 			return &fleet.Error{Code: fleet.EINVALID, Field: pe.ColumnName, Message: "a number is out of range"}
 		}
-		if pe.Code[:2] == "08" || pe.Code == "57P01" || pe.Code == "57P03" {
+		// 08 connection exceptions, 53 insufficient resources (too many
+		// connections, disk full), 57P0x shutdown, crash or cannot connect now.
+		if class := pe.Code[:2]; class == "08" || class == "53" || strings.HasPrefix(pe.Code, "57P") {
 			return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
 		}
 		return err
 	}
-	var ce *pgconn.ConnectError
-	if errors.As(err, &ce) || pgconn.SafeToRetry(err) || errors.Is(err, context.DeadlineExceeded) {
+	if connectionLost(err) {
 		return &fleet.Error{Code: fleet.EUNAVAILABLE, Message: "database unavailable"}
 	}
 	return err
+}
+
+// connectionLost reports an error of reaching the database rather than of
+// the statement: a refused or broken connection, a server process that died
+// mid-transaction (EOF), a closed connection or transaction, a timeout.
+func connectionLost(err error) bool {
+	var ce *pgconn.ConnectError
+	var ne net.Error
+	return errors.As(err, &ce) || pgconn.SafeToRetry(err) || pgconn.Timeout(err) ||
+		errors.Is(err, context.DeadlineExceeded) || errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) ||
+		errors.As(err, &ne) || errors.Is(err, net.ErrClosed) || errors.Is(err, pgconn.ErrConnClosed) ||
+		errors.Is(err, pgx.ErrTxClosed) || errors.Is(err, syscall.ECONNRESET) || errors.Is(err, syscall.EPIPE)
 }
 
 // fieldOfConstraint names the input member behind a constraint the table
