@@ -1,11 +1,17 @@
 package api_test
 
 import (
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/json"
+	"mime/multipart"
+	"net/http/httptest"
+	"strings"
 	"testing"
+	"time"
 
+	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 )
 
@@ -41,12 +47,12 @@ func TestIdempotencyKey(t *testing.T) {
 	// A key claimed by a request still running: the retry waits its turn with 409.
 	raw, _ := json.Marshal(body)
 	sum := sha256.Sum256(append([]byte("application/json\n"), raw...))
-	if _, err := e.db.ClaimIdempotencyKey(context.Background(), e.keys[tech], "busy", "/v1/jobs", sum[:]); err != nil {
+	if _, _, err := e.db.ClaimIdempotencyKey(context.Background(), e.keys[tech], "busy", "/v1/jobs", sum[:], time.Minute); err != nil {
 		t.Fatal(err)
 	}
 	busy := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "busy")
-	if p := busy.problem(t); busy.Status != 409 || p.Field != "Idempotency-Key" {
-		t.Fatalf("key in progress: %d %+v", busy.Status, p)
+	if p := busy.problem(t); busy.Status != 409 || p.Field != "Idempotency-Key" || busy.Header.Get("Retry-After") == "" {
+		t.Fatalf("key in progress: %d %+v Retry-After %q", busy.Status, p, busy.Header.Get("Retry-After"))
 	}
 	// A refused request (4xx) is kept too: the retry gets the same refusal.
 	bad := map[string]any{"code": "", "client": "x"}
@@ -54,5 +60,204 @@ func TestIdempotencyKey(t *testing.T) {
 	r2 := e.call("POST", "/v1/jobs", tech, bad, "Idempotency-Key", "bad-1")
 	if r1.Status != 400 || r2.Status != 400 || r2.Header.Get("Idempotent-Replayed") != "true" {
 		t.Fatalf("refused request retried: %d / %d", r1.Status, r2.Status)
+	}
+}
+
+func (e *env) jobCount() int {
+	e.t.Helper()
+	var jobs struct {
+		Items []any `json:"items"`
+	}
+	e.call("GET", "/v1/jobs", fleet.RoleViewer, nil).decode(e.t, &jobs)
+	return len(jobs.Items)
+}
+
+// A claim is a lease: a holder that died (the service killed, the database
+// lost) holds the key only until the lease lapses; then a retry runs (before
+// the fix every retry got 409 for 24 hours).
+func TestIdempotencyLeaseLapses(t *testing.T) {
+	e := newEnv(t)
+	body := map[string]any{"code": "LL-1", "client": "Harbour Board"}
+	raw, _ := json.Marshal(body)
+	sum := sha256.Sum256(append([]byte("application/json\n"), raw...))
+	// A request claimed the key and then its process died: nothing completes it.
+	if _, _, err := e.db.ClaimIdempotencyKey(t.Context(), e.keys[tech], "dead", "/v1/jobs", sum[:], time.Second); err != nil {
+		t.Fatal(err)
+	}
+	if r := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "dead"); r.Status != 409 || r.Header.Get("Retry-After") != "1" {
+		t.Fatalf("within the lease: %d Retry-After %q", r.Status, r.Header.Get("Retry-After"))
+	}
+	time.Sleep(1200 * time.Millisecond)
+	r := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "dead")
+	if r.Status != 201 || r.Header.Get("Idempotent-Replayed") != "" {
+		t.Fatalf("after the lease lapsed: %d %s", r.Status, r.Body)
+	}
+	if again := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "dead"); again.Status != 201 || again.Header.Get("Idempotent-Replayed") != "true" {
+		t.Fatalf("the taken-over key did not keep its result: %d", again.Status)
+	}
+	if n := e.jobCount(); n != 1 {
+		t.Fatalf("%d jobs, want 1", n)
+	}
+}
+
+// cancelOnWrite is a response recorder whose client goes away as soon as
+// the answer starts: the request's context ends right after the work is done.
+type cancelOnWrite struct {
+	*httptest.ResponseRecorder
+	cancel context.CancelFunc
+}
+
+func (w *cancelOnWrite) WriteHeader(code int) {
+	w.ResponseRecorder.WriteHeader(code)
+	w.cancel()
+}
+
+// Storing the result does not depend on the request's context: a client
+// gone right after the work was done still leaves its result for the retry
+// (before the fix the store call failed with the cancelled context and the
+// key stayed "in progress").
+func TestIdempotencyResultKeptWhenClientLeaves(t *testing.T) {
+	e := newEnv(t)
+	ctx, cancel := context.WithCancel(t.Context())
+	req := httptest.NewRequest("POST", "/v1/jobs", strings.NewReader(`{"code":"CL-1","client":"c"}`)).WithContext(ctx)
+	req.Header.Set("Content-Type", "application/json")
+	req.Header.Set("Authorization", "Bearer "+e.tokens[tech])
+	req.Header.Set("Idempotency-Key", "leaves")
+	rec := &cancelOnWrite{ResponseRecorder: httptest.NewRecorder(), cancel: cancel}
+	e.h.ServeHTTP(rec, req)
+	if rec.Code != 201 {
+		t.Fatalf("first: %d %s", rec.Code, rec.Body)
+	}
+	r := e.call("POST", "/v1/jobs", tech, []byte(`{"code":"CL-1","client":"c"}`), "Idempotency-Key", "leaves")
+	if r.Status != 201 || r.Header.Get("Idempotent-Replayed") != "true" {
+		t.Fatalf("retry after the client left: %d %s", r.Status, r.Body)
+	}
+}
+
+// A client gone before the work was done releases its key at once: the
+// retry runs now, not after a lease or a day.
+func TestIdempotencyClientGoneReleasesKey(t *testing.T) {
+	e := newEnv(t)
+	ctx := t.Context()
+	holder, err := e.db.Pool().Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Block every job insert behind a lock on the table.
+	if _, err := holder.Exec(ctx, `LOCK TABLE jobs IN EXCLUSIVE MODE`); err != nil {
+		t.Fatal(err)
+	}
+	rctx, cancel := context.WithCancel(ctx)
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		req := httptest.NewRequest("POST", "/v1/jobs", strings.NewReader(`{"code":"CG-1","client":"c"}`)).WithContext(rctx)
+		req.Header.Set("Content-Type", "application/json")
+		req.Header.Set("Authorization", "Bearer "+e.tokens[tech])
+		req.Header.Set("Idempotency-Key", "gone")
+		e.h.ServeHTTP(httptest.NewRecorder(), req)
+	}()
+	waitBlocked(t, e.db)
+	cancel()
+	<-done
+	holder.Rollback(ctx)
+	r := e.call("POST", "/v1/jobs", tech, []byte(`{"code":"CG-1","client":"c"}`), "Idempotency-Key", "gone")
+	if r.Status != 201 || r.Header.Get("Idempotent-Replayed") != "" {
+		t.Fatalf("retry after the client went away: %d %s", r.Status, r.Body)
+	}
+}
+
+// A replay returns the first answer's ETag and Location too.
+func TestIdempotencyReplayHeaders(t *testing.T) {
+	e := newEnv(t)
+	body := map[string]any{"code": "RH-1", "client": "c"}
+	first := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "hdr")
+	again := e.call("POST", "/v1/jobs", tech, body, "Idempotency-Key", "hdr")
+	for _, h := range []string{"ETag", "Location"} {
+		if first.Header.Get(h) == "" || again.Header.Get(h) != first.Header.Get(h) {
+			t.Errorf("%s: first %q, replay %q", h, first.Header.Get(h), again.Header.Get(h))
+		}
+	}
+}
+
+// A multipart retry with a new boundary (what curl sends each time) is the
+// same request: matched by its parts, not its bytes (before the fix: 422).
+// Other parts are another request.
+func TestIdempotencyMultipartNewBoundary(t *testing.T) {
+	e := newEnv(t)
+	a, pack, spec := e.simFleet()
+	log, _ := genLog(t, spec)
+	flight := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pack.ID}}
+	send := func(log []byte, boundary string) *resp {
+		var buf bytes.Buffer
+		w := multipart.NewWriter(&buf)
+		if err := w.SetBoundary(boundary); err != nil {
+			t.Fatal(err)
+		}
+		fj, _ := json.Marshal(flight)
+		fw, _ := w.CreateFormField("flight")
+		fw.Write(fj)
+		lw, _ := w.CreateFormFile("log", "flight.csv")
+		lw.Write(log)
+		w.Close()
+		req := httptest.NewRequest("POST", "/v1/flights", &buf)
+		req.Header.Set("Content-Type", w.FormDataContentType())
+		req.Header.Set("Authorization", "Bearer "+e.tokens[pilot])
+		req.Header.Set("Idempotency-Key", "upload-1")
+		rec := httptest.NewRecorder()
+		e.h.ServeHTTP(rec, req)
+		r := &resp{Status: rec.Code, Header: rec.Header(), Body: rec.Body.Bytes()}
+		validate(t, req, r)
+		return r
+	}
+	first := send(log, "------------------------aaaaaaaaaaaaaaaa")
+	if first.Status != 201 {
+		t.Fatalf("upload: %d %s", first.Status, first.Body)
+	}
+	again := send(log, "------------------------bbbbbbbbbbbbbbbb")
+	if again.Status != 201 || again.Header.Get("Idempotent-Replayed") != "true" || again.Header.Get("Location") != first.Header.Get("Location") {
+		t.Fatalf("same parts, new boundary: %d replayed %q %s", again.Status, again.Header.Get("Idempotent-Replayed"), again.Body)
+	}
+	other := send(append(append([]byte{}, log...), "# one more comment\n"...), "------------------------cccccccccccccccc")
+	if p := other.problem(t); other.Status != 422 || p.Field != "Idempotency-Key" {
+		t.Fatalf("other log bytes, same key: %d %+v", other.Status, p)
+	}
+}
+
+// A request that runs longer than the lease keeps its key: the lease is
+// renewed while it runs, so a retry meanwhile still gets 409.
+func TestIdempotencyLeaseRenewedWhileRunning(t *testing.T) {
+	e := newEnv(t)
+	short := *e
+	short.h = api.New(e.db, e.log, api.Limits{IdempotencyLease: 300 * time.Millisecond}, nil).Handler()
+	ctx := t.Context()
+	holder, err := e.db.Pool().Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := holder.Exec(ctx, `LOCK TABLE jobs IN EXCLUSIVE MODE`); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan int)
+	go func() {
+		req := httptest.NewRequest("POST", "/v1/jobs", strings.NewReader(`{"code":"LR-1","client":"c"}`))
+		req.Header.Set("Content-Type", "application/json")
+		req.Header.Set("Authorization", "Bearer "+e.tokens[tech])
+		req.Header.Set("Idempotency-Key", "long")
+		rec := httptest.NewRecorder()
+		short.h.ServeHTTP(rec, req)
+		done <- rec.Code
+	}()
+	waitBlocked(t, e.db)
+	time.Sleep(time.Second) // over three lease lengths
+	if r := short.call("POST", "/v1/jobs", tech, []byte(`{"code":"LR-1","client":"c"}`), "Idempotency-Key", "long"); r.Status != 409 {
+		t.Fatalf("retry while the first runs past its lease: %d %s", r.Status, r.Body)
+	}
+	holder.Rollback(ctx)
+	if code := <-done; code != 201 {
+		t.Fatalf("first: %d", code)
+	}
+	if n := short.jobCount(); n != 1 {
+		t.Fatalf("%d jobs, want 1", n)
 	}
 }

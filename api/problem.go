@@ -4,7 +4,9 @@ import (
 	"context"
 	"errors"
 	"log/slog"
+	"math"
 	"net/http"
+	"strconv"
 	"strings"
 
 	"github.com/gin-gonic/gin"
@@ -84,6 +86,9 @@ func (s *Server) fail(c *gin.Context, err error) {
 	var fe *fleet.Error
 	if errors.As(err, &fe) {
 		p.Field, p.Line, p.Column, p.Blockers = fe.Field, fe.Line, fe.Column, fe.Blockers
+		if fe.RetryAfter > 0 {
+			c.Header("Retry-After", strconv.Itoa(int(math.Ceil(fe.RetryAfter.Seconds()))))
+		}
 		if fe.Field != "" {
 			p.Errors = []ProblemError{{Pointer: pointer(fe.Field), Detail: fe.Message}}
 		}

@@ -9,6 +9,7 @@ import (
 	"log/slog"
 	"net/http"
 	"strings"
+	"time"
 
 	"github.com/gin-gonic/gin"
 
@@ -27,10 +28,13 @@ type Limits struct {
 	JSONBytes int64 // request bodies other than log uploads
 	LogBytes  int64 // one uploaded flight log
 	LogRows   int   // data rows of one flight log
+	// IdempotencyLease is how long an Idempotency-Key claim holds without
+	// renewal: a retry after a crash or a lost client waits at most this.
+	IdempotencyLease time.Duration
 }
 
 // DefaultLimits are the limits of DESIGN section 8.
-var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_000_000}
+var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_000_000, IdempotencyLease: 30 * time.Second}
 
 // Server holds the handlers' dependencies.
 type Server struct {
@@ -131,6 +135,9 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	}
 	if limits.LogRows == 0 {
 		limits.LogRows = DefaultLimits.LogRows
+	}
+	if limits.IdempotencyLease <= 0 {
+		limits.IdempotencyLease = DefaultLimits.IdempotencyLease
 	}
 	hs := health.New(db)
 	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics()}

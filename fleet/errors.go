@@ -5,6 +5,7 @@ package fleet
 import (
 	"errors"
 	"fmt"
+	"time"
 )
 
 // Error codes. The API maps each to one HTTP status.
@@ -33,6 +34,9 @@ type Error struct {
 	Column string
 	// Blockers say why an airframe may not fly, when that is the refusal.
 	Blockers []ReadinessItem
+	// RetryAfter, when set, is how soon a retry may succeed (a key in use,
+	// a rate limit, a full queue).
+	RetryAfter time.Duration
 }
 
 func (e *Error) Error() string {

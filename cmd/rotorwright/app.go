@@ -215,7 +215,7 @@ func (a *App) Run(ctx context.Context) error {
 		return err
 	}
 	defer stopSchedule() // after the server drains: shutdown order per STYLE 14
-	srv := api.New(a.DB, a.log, api.DefaultLimits, prog)
+	srv := api.New(a.DB, a.log, a.cfg.Limits, prog)
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,

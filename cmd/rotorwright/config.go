@@ -5,8 +5,11 @@ import (
 	"log/slog"
 	"os"
 	"strings"
+	"time"
 
 	"github.com/spf13/pflag"
+
+	"github.com/rotorwright/rotorwright/api"
 )
 
 // Config is the service configuration, from the environment and flags,
@@ -28,6 +31,9 @@ type Config struct {
 	WebhooksAllowLoopback bool
 	CronRecompute         string
 	CronNightly           string
+	// Limits bound requests (sizes, leases, rates); zero fields take the
+	// API's defaults.
+	Limits api.Limits
 }
 
 // ConfigFromEnv reads the environment.
@@ -47,6 +53,9 @@ func ConfigFromEnv() (Config, error) {
 	c.WebhooksAllowLoopback = os.Getenv("ROTORWRIGHT_WEBHOOKS_ALLOW_LOOPBACK") == "true"
 	c.CronRecompute = os.Getenv("ROTORWRIGHT_CRON_RECOMPUTE")
 	c.CronNightly = os.Getenv("ROTORWRIGHT_CRON_NIGHTLY")
+	if err := envDuration("ROTORWRIGHT_IDEMPOTENCY_LEASE", &c.Limits.IdempotencyLease); err != nil {
+		return c, err
+	}
 	if v := os.Getenv("ROTORWRIGHT_LOG_LEVEL"); v != "" {
 		if err := c.LogLevel.UnmarshalText([]byte(v)); err != nil {
 			return c, fmt.Errorf("ROTORWRIGHT_LOG_LEVEL: %q is not debug, info, warn or error", v)
@@ -91,6 +100,7 @@ func (c *Config) bindServe(fs *pflag.FlagSet) {
 	fs.StringVar(&c.CronRecompute, "cron-recompute", c.CronRecompute, "cron schedule of the due-list recompute, default */15 * * * * (env ROTORWRIGHT_CRON_RECOMPUTE)")
 	hideDefault(fs, "webhook")
 	fs.StringVar(&c.CronNightly, "cron-nightly", c.CronNightly, "cron schedule of the health and due-list recompute, default 0 2 * * * (env ROTORWRIGHT_CRON_NIGHTLY)")
+	c.bindLimits(fs)
 }
 
 // levelFlag is a slog.Level as a flag value.
@@ -102,6 +112,20 @@ func (l *levelFlag) Set(s string) error {
 	if err := (*slog.Level)(l).UnmarshalText([]byte(s)); err != nil {
 		return fmt.Errorf("%q is not debug, info, warn or error", s)
 	}
+	return nil
+}
+
+// envDuration reads a Go duration ("30s", "2m") from the environment.
+func envDuration(k string, dst *time.Duration) error {
+	v := os.Getenv(k)
+	if v == "" {
+		return nil
+	}
+	d, err := time.ParseDuration(v)
+	if err != nil || d <= 0 {
+		return fmt.Errorf("%s: %q is not a positive duration such as 30s", k, v)
+	}
+	*dst = d
 	return nil
 }
 
