@@ -49,6 +49,25 @@
 //	# spin-up
 //	0.04,24.60,18.2,4105,4098,4120,4088,98011,14.5
 //
+// # Foreign layouts
+//
+// ParseMapped reads a log in another layout through a column map
+// (fleet.ColumnMap): the header on the map's header row (lines before it are
+// skipped), fields split at its delimiter (comma, semicolon or tab) as RFC
+// 4180 has them (a quoted field may hold the delimiter, line breaks and
+// doubled quotes; a quote inside an unquoted field is refused), a UTF-8
+// byte-order mark and blank lines ignored. The time column is read in its
+// unit (s, ms, us, ns) from its origin: "start" (time since the log's
+// start), "epoch" (Unix time; the log starts at the first sample, which
+// sets Meta.Start) or "rfc3339" (a time string per row, a space allowed
+// between date and time). Every other mapped source becomes its target as
+// target = s * scale + offset, s the source value negated first when the
+// map says negate; a power-of-ten scale moves the decimal point exactly.
+// The refusals are those above, checked on the converted values, and each
+// names the physical line and the source column with its target:
+// `line 812, column BattCurr_cA (maps to pack_a)`. Detect picks a map for a
+// log from its header row and the maps' detect names.
+//
 // # Figures
 //
 // Analyze integrates by the trapezoidal rule over the actual time steps and

@@ -74,9 +74,48 @@ type Log struct {
 	Lat, Lon         []float64
 }
 
+// Series returns the samples of one of the service's columns (t_s, pack_v,
+// rpm_m1, cell_2_v...), nil when the log lacks it.
+func (l *Log) Series(name string) []float64 {
+	switch name {
+	case "t_s":
+		return l.T
+	case "pack_v":
+		return l.PackV
+	case "pack_a":
+		return l.PackA
+	case "throttle":
+		return l.Throttle
+	case "baro_pa":
+		return l.Baro
+	case "temp_c":
+		return l.Temp
+	case "acc_x":
+		return l.AccX
+	case "acc_y":
+		return l.AccY
+	case "acc_z":
+		return l.AccZ
+	case "lat":
+		return l.Lat
+	case "lon":
+		return l.Lon
+	}
+	if n, ok := fleet.CellColumn(name); ok && n <= len(l.Cells) {
+		return l.Cells[n-1]
+	}
+	for _, r := range l.RPM {
+		if "rpm_"+r.Position == name {
+			return r.RPM
+		}
+	}
+	return nil
+}
+
 // column is how one header column is read.
 type column struct {
-	name   string
+	name   string     // as the header gives it
+	target string     // the service column it feeds; "" ignored
 	dst    *[]float64 // nil: ignored
 	lo, hi float64    // accepted range, inclusive
 	loOpen bool       // lo itself is refused
@@ -102,16 +141,7 @@ type parser struct {
 // naming the physical line and the column at fault. Errors from r itself are
 // returned wrapped, as they are.
 func Parse(r io.Reader, lim Limits) (*Log, error) {
-	lim = lim.withDefaults()
-	p := &parser{
-		lim:  lim,
-		br:   bufio.NewReaderSize(io.LimitReader(r, lim.MaxBytes+1), 64<<10),
-		log:  &Log{},
-		seen: map[string]bool{},
-	}
-	if lr, ok := r.(interface{ Len() int }); ok {
-		p.hint = lr.Len()
-	}
+	p := newParser(r, lim)
 	for {
 		b, ok, err := p.next()
 		if err != nil {
@@ -151,6 +181,22 @@ func Parse(r io.Reader, lim Limits) (*Log, error) {
 		return nil, p.refuse(p.line, "", "the log has no data rows")
 	}
 	return p.log, nil
+}
+
+// newParser reads r under the limits; the byte limit holds before any
+// buffering, so a decompressing reader is never drained past it.
+func newParser(r io.Reader, lim Limits) *parser {
+	lim = lim.withDefaults()
+	p := &parser{
+		lim:  lim,
+		br:   bufio.NewReaderSize(io.LimitReader(r, lim.MaxBytes+1), 64<<10),
+		log:  &Log{},
+		seen: map[string]bool{},
+	}
+	if lr, ok := r.(interface{ Len() int }); ok {
+		p.hint = lr.Len()
+	}
+	return p
 }
 
 // next returns the next physical line without its line ending.
@@ -237,20 +283,14 @@ func (p *parser) parseHeader(b []byte) error {
 	names := strings.Split(string(b), ",")
 	l := p.log
 	p.cols = make([]column, len(names))
-	p.tcol = -1
 	unknown := map[string]bool{}
-	maxCell := 0
-	cellIdx := make([]int, len(names))
 	for i, n := range names {
 		n = strings.TrimSpace(n)
 		if n == "" {
 			return p.refuse(p.line, "", fmt.Sprintf("column %d of the header has no name", i+1))
 		}
-		p.cols[i] = column{name: n, lo: math.Inf(-1), hi: math.Inf(1)}
-		if cell, ok := cellNumber(n); ok {
-			cellIdx[i] = cell
-			maxCell = max(maxCell, cell)
-		} else if !knownColumn(n) {
+		p.cols[i] = column{name: n}
+		if !fleet.LogColumn(n) {
 			if !unknown[n] {
 				unknown[n] = true
 				l.Unknown = append(l.Unknown, n)
@@ -261,101 +301,71 @@ func (p *parser) parseHeader(b []byte) error {
 			return p.refuse(p.line, n, fmt.Sprintf("column %s appears twice", n))
 		}
 		p.seen[n] = true
+		p.cols[i].target = n
 		l.Columns = append(l.Columns, n)
 	}
-	for _, req := range []string{"t_s", "pack_v", "pack_a"} {
-		if !p.seen[req] {
-			return p.refuse(p.line, req, fmt.Sprintf("required column %s is missing", req))
-		}
+	if col, why := fleet.MissingLogColumn(p.seen); col != "" {
+		return p.refuse(p.line, col, why)
 	}
-	if p.seen["lat"] != p.seen["lon"] {
-		miss := "lat"
-		if p.seen["lat"] {
-			miss = "lon"
-		}
-		return p.refuse(p.line, miss, "lat and lon must be given together; "+miss+" is missing")
-	}
-	for c := 1; c <= maxCell; c++ {
-		if !p.seen[cellName(c)] {
-			return p.refuse(p.line, cellName(c), fmt.Sprintf("cell columns must be numbered 1..%d; %s is missing", maxCell, cellName(c)))
-		}
-	}
-	// Series slices are allocated before pointers are taken so the pointers stay valid.
-	for _, c := range p.cols {
-		if strings.HasPrefix(c.name, "rpm_") && p.seen[c.name] {
-			l.RPM = append(l.RPM, RotorSeries{Position: c.name[4:], RPM: []float64{}})
+	p.tcol = l.bind(p.cols)
+	return nil
+}
+
+// bind points every column with a target at that target's series, with the
+// target's accepted range, and returns the index of the time column (-1 if
+// none). Series are allocated before pointers are taken so they stay valid.
+func (l *Log) bind(cols []column) int {
+	maxCell := 0
+	for _, c := range cols {
+		if strings.HasPrefix(c.target, "rpm_") {
+			l.RPM = append(l.RPM, RotorSeries{Position: c.target[4:], RPM: []float64{}})
+		} else if n, ok := fleet.CellColumn(c.target); ok {
+			maxCell = max(maxCell, n)
 		}
 	}
 	if maxCell > 0 {
 		l.Cells = make([][]float64, maxCell)
 	}
-	rotor := 0
-	for i := range p.cols {
-		c := &p.cols[i]
-		if !p.seen[c.name] {
+	rotor, tcol := 0, -1
+	for i := range cols {
+		c := &cols[i]
+		c.lo, c.hi = math.Inf(-1), math.Inf(1)
+		switch t := c.target; {
+		case t == "":
 			continue
-		}
-		switch {
-		case c.name == "t_s":
-			c.dst, p.tcol = &l.T, i
-		case c.name == "pack_v":
+		case t == "t_s":
+			c.dst, tcol = &l.T, i
+		case t == "pack_v":
 			c.dst = &l.PackV
-		case c.name == "pack_a":
+		case t == "pack_a":
 			c.dst = &l.PackA
-		case c.name == "throttle":
+		case t == "throttle":
 			c.dst, c.lo, c.hi = &l.Throttle, 0, 1
-		case c.name == "baro_pa":
+		case t == "baro_pa":
 			c.dst, c.lo, c.loOpen = &l.Baro, 0, true
-		case c.name == "temp_c":
+		case t == "temp_c":
 			c.dst, c.lo, c.loOpen = &l.Temp, -273.15, true
-		case c.name == "acc_x":
+		case t == "acc_x":
 			c.dst = &l.AccX
-		case c.name == "acc_y":
+		case t == "acc_y":
 			c.dst = &l.AccY
-		case c.name == "acc_z":
+		case t == "acc_z":
 			c.dst = &l.AccZ
-		case c.name == "lat":
+		case t == "lat":
 			c.dst, c.lo, c.hi = &l.Lat, -90, 90
-		case c.name == "lon":
+		case t == "lon":
 			c.dst, c.lo, c.hi = &l.Lon, -180, 180
-		case strings.HasPrefix(c.name, "rpm_"):
+		case strings.HasPrefix(t, "rpm_"):
 			c.dst, c.lo = &l.RPM[rotor].RPM, 0
 			rotor++
-		case cellIdx[i] > 0:
-			c.dst, c.lo = &l.Cells[cellIdx[i]-1], 0
+		default:
+			n, _ := fleet.CellColumn(t)
+			c.dst, c.lo = &l.Cells[n-1], 0
 		}
 		*c.dst = []float64{}
 	}
-	return nil
+	return tcol
 }
-
-var knownNames = map[string]bool{
-	"t_s": true, "pack_v": true, "pack_a": true, "throttle": true, "baro_pa": true, "temp_c": true,
-	"acc_x": true, "acc_y": true, "acc_z": true, "lat": true, "lon": true,
-}
-
-func knownColumn(n string) bool {
-	return knownNames[n] || (strings.HasPrefix(n, "rpm_") && len(n) > 4)
-}
-
-// cellNumber reads cell_<n>_v with n a positive decimal written without leading zeros.
-func cellNumber(n string) (int, bool) {
-	s, ok := strings.CutPrefix(n, "cell_")
-	if !ok {
-		return 0, false
-	}
-	s, ok = strings.CutSuffix(s, "_v")
-	if !ok {
-		return 0, false
-	}
-	c, err := strconv.Atoi(s)
-	if err != nil || c < 1 || c > 64 || strconv.Itoa(c) != s {
-		return 0, false
-	}
-	return c, true
-}
-
-func cellName(c int) string { return "cell_" + strconv.Itoa(c) + "_v" }
 
 // row parses one data row, appending a value to every recognised series.
 func (p *parser) row(b []byte) error {

@@ -1,0 +1,530 @@
+package telemetry
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+	"unsafe"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// noPow marks a scale that is not a power of ten.
+const noPow = math.MinInt
+
+// conversion turns one source column's values into its target's unit.
+type conversion struct {
+	scale, offset float64
+	pow           int // scale is 10^pow, applied exactly by moving the decimal point
+	neg           bool
+}
+
+func newConversion(s fleet.MapSource) conversion {
+	c := conversion{scale: 1, offset: s.Offset, neg: s.Negate, pow: noPow}
+	if s.Scale != nil {
+		c.scale = *s.Scale
+	}
+	for k := range len(pow10) {
+		// 1/pow10[k] is the double nearest 10^-k, as a map's "0.001" decodes.
+		switch c.scale {
+		case pow10[k]:
+			c.pow = k
+		case 1 / pow10[k]:
+			c.pow = -k
+		}
+	}
+	return c
+}
+
+// apply returns (mant / 10^frac) * scale. With a power-of-ten scale the
+// decimal point moves and one IEEE operation rounds the exact result, so
+// "12345" mV at scale 0.001 gives the same double as "12.345" V.
+func (c *conversion) apply(mant uint64, frac int) float64 {
+	if c.pow != noPow {
+		if e := frac - c.pow; e >= 0 && e < len(pow10) {
+			return float64(mant) / pow10[e]
+		} else if e < 0 && -e < len(pow10) {
+			return float64(mant) * pow10[-e]
+		}
+	}
+	return float64(mant) / pow10[frac] * c.scale
+}
+
+// mapParser reads a log through a column map; it shares the native parser's
+// line reading, limits and refusals.
+type mapParser struct {
+	*parser
+	m     *fleet.ColumnMap
+	sp    splitter
+	conv  []conversion // per header column
+	unit  int          // time unit as a power of ten of nanoseconds
+	rec   []byte       // a record spanning lines
+	cur   []byte       // the current record when it holds quotes
+	line0 int          // first line of the current record
+	multi bool         // the current record went through splitQuoted
+	t0ns  int64
+	t0    time.Time
+	tbuf  []byte
+	// The minute of the last RFC 3339 time parsed in full: its text up to
+	// the seconds, its zone, and its time at second zero.
+	tmin, tzone []byte
+	tbase       time.Time
+}
+
+// ParseMapped reads a log laid out as the column map m describes (m has
+// passed Validate): the header on m.HeaderRow (lines before it skipped),
+// RFC 4180 fields split at m.Delimiter, a UTF-8 byte-order mark and blank
+// lines ignored, the time column read in its unit and origin, and every
+// mapped source converted to its target. Unmapped columns are ignored and
+// reported in Log.Unknown. Refusals are those of Parse, each naming the
+// line and the source column with its target. With m nil it is Parse.
+func ParseMapped(r io.Reader, m *fleet.ColumnMap, lim Limits) (*Log, error) {
+	if m == nil {
+		return Parse(r, lim)
+	}
+	p := &mapParser{parser: newParser(r, lim), m: m, sp: splitter{delim: m.Delimiter[0]}}
+	switch m.Time.Unit {
+	case "s":
+		p.unit = 9
+	case "ms":
+		p.unit = 6
+	case "us":
+		p.unit = 3
+	}
+	for {
+		b, ok, err := p.next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			break
+		}
+		if p.line == 1 {
+			b = bytes.TrimPrefix(b, []byte("\xEF\xBB\xBF"))
+		}
+		if p.header == 0 && p.line < m.HeaderRow {
+			continue
+		}
+		if p.header == 0 {
+			rec, err := p.record(b)
+			if err != nil {
+				return nil, err
+			}
+			if err := p.parseHeader(rec); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		if p.blankLine(b) {
+			continue
+		}
+		rec, err := p.record(b)
+		if err != nil {
+			return nil, err
+		}
+		if err := p.row(rec); err != nil {
+			return nil, err
+		}
+	}
+	if p.header == 0 {
+		return nil, p.refuse(max(p.line, 1), "", fmt.Sprintf("the log has no header row (map %s expects it on line %d)", m.Name, m.HeaderRow))
+	}
+	if p.log.Rows == 0 {
+		return nil, p.refuse(p.line, "", "the log has no data rows")
+	}
+	return p.log, nil
+}
+
+func (p *mapParser) blankLine(b []byte) bool {
+	for _, c := range b {
+		if !p.sp.blank(c) {
+			return false
+		}
+	}
+	return true
+}
+
+// record returns the record starting with line b: b itself when it holds no
+// quote, else the lines up to the one that closes the last quoted field.
+func (p *mapParser) record(b []byte) ([]byte, error) {
+	p.line0 = p.line
+	p.multi = bytes.IndexByte(b, '"') >= 0
+	if !p.multi {
+		return b, nil
+	}
+	if p.cur = b; !quotesOpen(b, false) {
+		return b, nil
+	}
+	p.rec = append(p.rec[:0], b...)
+	for open := true; open; {
+		nb, ok, err := p.next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			return nil, p.unclosed(fmt.Sprintf("a quoted field opened on line %d is not closed by the end of the log", p.line0))
+		}
+		p.rec = append(append(p.rec, '\n'), nb...)
+		if len(p.rec) > maxRecordBytes {
+			return nil, p.unclosed(fmt.Sprintf("the record from line %d runs over %d bytes: a quote is not closed", p.line0, maxRecordBytes))
+		}
+		open = quotesOpen(nb, open)
+	}
+	p.cur = p.rec
+	return p.rec, nil
+}
+
+// unclosed refuses a record whose quotes never balance, at the first
+// malformed field when there is one (a stray quote unbalances them too).
+func (p *mapParser) unclosed(msg string) *fleet.Error {
+	if _, at, why := p.sp.splitQuoted(p.rec); why != "" && why != whyUnclosed {
+		return p.refuse(p.line0+bytes.Count(p.rec[:at], []byte{'\n'}), "", why)
+	}
+	return p.refuse(p.line0, "", msg)
+}
+
+// fields splits the current record; a malformed one is refused at the line
+// of the fault.
+func (p *mapParser) fields(rec []byte) ([][]byte, error) {
+	if !p.multi {
+		return p.sp.split(rec), nil
+	}
+	fs, at, why := p.sp.splitQuoted(rec)
+	if why != "" {
+		return nil, p.refuse(p.line0+bytes.Count(rec[:at], []byte{'\n'}), "", why)
+	}
+	return fs, nil
+}
+
+// lineOf is the physical line of field k of the current record.
+func (p *mapParser) lineOf(k int) int {
+	if !p.multi || k >= len(p.sp.offs) {
+		return p.line0
+	}
+	return p.line0 + bytes.Count(p.cur[:p.sp.offs[k]], []byte{'\n'})
+}
+
+// refuseCol refuses at field k of the current record, naming the source
+// column and, when mapped, its target.
+func (p *mapParser) refuseCol(k int, msg string) *fleet.Error {
+	c := p.cols[k]
+	e := p.refuse(p.lineOf(k), c.name, msg)
+	if c.target != "" {
+		e.Field += " (maps to " + c.target + ")"
+	}
+	return e
+}
+
+func (p *mapParser) parseHeader(rec []byte) error {
+	p.header = p.line0
+	if !utf8.Valid(rec) {
+		return p.refuse(p.line0, "", "header is not valid UTF-8")
+	}
+	fs, err := p.fields(rec)
+	if err != nil {
+		return err
+	}
+	bySource := map[string]string{p.m.Time.Column: fleet.ColTime}
+	for t, s := range p.m.Columns {
+		bySource[s.From] = t
+	}
+	l := p.log
+	p.cols = make([]column, len(fs))
+	p.conv = make([]conversion, len(fs))
+	present := map[string]bool{}
+	unknown := map[string]bool{}
+	for i, f := range fs {
+		n := strings.TrimSpace(string(f))
+		p.cols[i].name = n
+		t, ok := bySource[n]
+		if !ok {
+			if n != "" && !unknown[n] {
+				unknown[n] = true
+				l.Unknown = append(l.Unknown, n)
+			}
+			continue
+		}
+		if present[t] {
+			return p.refuse(p.lineOf(i), n, fmt.Sprintf("column %s appears twice in the header", n))
+		}
+		present[t] = true
+		p.cols[i].target = t
+		if t != fleet.ColTime {
+			p.conv[i] = newConversion(p.m.Columns[t])
+		}
+		l.Columns = append(l.Columns, t)
+	}
+	if col, why := fleet.MissingLogColumn(present); col != "" {
+		src := p.m.Time.Column
+		if col != fleet.ColTime {
+			src = p.m.Columns[col].From
+		}
+		e := p.refuse(p.line0, src, fmt.Sprintf("the header has no column %q (%s)", src, why))
+		e.Field += " (maps to " + col + ")"
+		return e
+	}
+	p.tcol = l.bind(p.cols)
+	return nil
+}
+
+// row reads one data record.
+func (p *mapParser) row(rec []byte) error {
+	l := p.log
+	if l.Rows >= p.lim.MaxRows {
+		return p.refuse(p.line0, "", fmt.Sprintf("the log has more than the limit of %d data rows", p.lim.MaxRows))
+	}
+	fs, err := p.fields(rec)
+	if err != nil {
+		return err
+	}
+	if n := len(p.cols); len(fs) != n {
+		return p.refuseCol(min(len(fs), n-1), fmt.Sprintf("row has %d fields, the header has %d", len(fs), n))
+	}
+	for k := range p.cols {
+		c := &p.cols[k]
+		if c.dst == nil {
+			continue
+		}
+		var v float64
+		if k == p.tcol {
+			v, err = p.time(k, fs[k])
+		} else {
+			v, err = p.value(k, fs[k])
+		}
+		if err != nil {
+			return err
+		}
+		*c.dst = append(*c.dst, v)
+	}
+	t := l.T[len(l.T)-1]
+	if l.Rows > 0 && !(t > p.prevT) {
+		return p.refuseCol(p.tcol, fmt.Sprintf("time %.40q (t_s %g) is not after the previous row's (t_s %g)", trimSpace(fs[p.tcol]), t, p.prevT))
+	}
+	p.prevT = t
+	l.Rows++
+	if l.Rows == 1 && p.hint > 0 {
+		p.reserve(len(rec) + 1)
+	}
+	return nil
+}
+
+// value reads field f of source column k and converts it to the target.
+func (p *mapParser) value(k int, f []byte) (float64, error) {
+	f = trimSpace(f)
+	if len(f) == 0 {
+		return 0, p.refuseCol(k, "empty value (leave out a column with no data rather than leaving it blank)")
+	}
+	cv := &p.conv[k]
+	var v float64
+	if mant, frac, neg, ok := decimalParts(f); ok {
+		v = cv.apply(mant, frac)
+		if neg != cv.neg {
+			v = -v
+		}
+	} else {
+		x, err := p.float(k, f)
+		if err != nil {
+			return 0, err
+		}
+		if cv.neg {
+			x = -x
+		}
+		v = x * cv.scale
+	}
+	v += cv.offset
+	c := &p.cols[k]
+	if !(math.Abs(v) <= maxMagnitude) {
+		return 0, p.refuseCol(k, fmt.Sprintf("value %.40q gives %s %g, beyond %g, taken as corrupt", f, c.target, v, maxMagnitude))
+	}
+	if v < c.lo || v > c.hi || (c.loOpen && v == c.lo) {
+		return 0, p.refuseCol(k, fmt.Sprintf("value %.40q gives %s %g, outside %s", f, c.target, v, rangeText(c)))
+	}
+	return v, nil
+}
+
+// float reads a number that is not a plain decimal (exponents and the like).
+func (p *mapParser) float(k int, f []byte) (float64, error) {
+	// The string aliases the read buffer only for the call (see parser.value).
+	x, err := strconv.ParseFloat(unsafe.String(unsafe.SliceData(f), len(f)), 64)
+	if err != nil {
+		var ne *strconv.NumError
+		if errors.As(err, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
+			return 0, p.refuseCol(k, fmt.Sprintf("value %.40q is out of range", f))
+		}
+		return 0, p.refuseCol(k, fmt.Sprintf("value %.40q is not a number", f))
+	}
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return 0, p.refuseCol(k, fmt.Sprintf("value %.40q is NaN or infinite", f))
+	}
+	return x, nil
+}
+
+// time reads the time field as seconds after the log's start (origin
+// start) or after the first sample (epoch, rfc3339, which also set the
+// log's start time).
+func (p *mapParser) time(k int, f []byte) (float64, error) {
+	f = trimSpace(f)
+	if len(f) == 0 {
+		return 0, p.refuseCol(k, "empty time")
+	}
+	first := p.log.Rows == 0
+	if p.m.Time.Origin == fleet.OriginRFC3339 {
+		t, err := p.rfc3339(f)
+		if err != nil {
+			return 0, p.refuseCol(k, fmt.Sprintf("time %.40q is not an RFC 3339 time", f))
+		}
+		if first {
+			p.t0 = t
+			p.log.Meta.Start = &p.t0
+		}
+		return float64(t.Sub(p.t0)) / 1e9, nil
+	}
+	ns, ok := timeNS(f, p.unit)
+	if !ok {
+		x, err := p.float(k, f)
+		if err != nil {
+			return 0, err
+		}
+		x *= math.Pow10(p.unit)
+		if math.Abs(x) >= math.MaxInt64 {
+			return 0, p.refuseCol(k, fmt.Sprintf("time %.40q is out of range", f))
+		}
+		ns = int64(math.Round(x))
+	}
+	if p.m.Time.Origin == fleet.OriginStart {
+		return float64(ns) / 1e9, nil
+	}
+	if first {
+		p.t0ns = ns
+		start := time.Unix(0, ns).UTC()
+		p.log.Meta.Start = &start
+	}
+	d := ns - p.t0ns
+	if (d > 0) != (ns > p.t0ns) {
+		return 0, p.refuseCol(k, fmt.Sprintf("time %.40q is too far from the first sample", f))
+	}
+	return float64(d) / 1e9, nil
+}
+
+// rfc3339 parses an RFC 3339 time, also with a space between date and time
+// (RFC 3339 section 5.6 allows it). Rows of one minute share date, hour,
+// minute and zone: time.Parse reads the first of each minute, and the
+// others add their seconds to it.
+func (p *mapParser) rfc3339(f []byte) (time.Time, error) {
+	if len(f) > 10 && f[10] == ' ' {
+		p.tbuf = append(p.tbuf[:0], f...)
+		p.tbuf[10] = 'T'
+		f = p.tbuf
+	}
+	if len(p.tmin) > 0 && len(f) > len(p.tmin)+len(p.tzone) && bytes.HasPrefix(f, p.tmin) && bytes.HasSuffix(f, p.tzone) {
+		if ns, ok := secondsNS(f[len(p.tmin) : len(f)-len(p.tzone)]); ok {
+			return p.tbase.Add(time.Duration(ns)), nil
+		}
+	}
+	// The string aliases the buffer only for the call; the error is not kept.
+	t, err := time.Parse(time.RFC3339Nano, unsafe.String(unsafe.SliceData(f), len(f)))
+	if err != nil {
+		return t, err
+	}
+	p.tmin = p.tmin[:0]
+	if len(f) > 19 && f[16] == ':' {
+		end := 19 // "YYYY-MM-DDTHH:MM:SS", then an optional fraction, then the zone
+		if f[end] == '.' {
+			for end++; end < len(f) && f[end] >= '0' && f[end] <= '9'; end++ {
+			}
+		}
+		if ns, ok := secondsNS(f[17:end]); ok && end < len(f) && (f[end] == 'Z' || f[end] == '+' || f[end] == '-') {
+			p.tmin = append(p.tmin, f[:17]...)
+			p.tzone = append(p.tzone[:0], f[end:]...)
+			p.tbase = t.Add(-time.Duration(ns))
+		}
+	}
+	return t, nil
+}
+
+// secondsNS reads "SS" or "SS.fraction" (at most 9 fraction digits, SS
+// 00..59) as nanoseconds.
+func secondsNS(b []byte) (int64, bool) {
+	if len(b) < 2 || len(b) == 3 || len(b) > 12 || b[0] < '0' || b[0] > '5' || b[1] < '0' || b[1] > '9' {
+		return 0, false
+	}
+	ns := int64(b[0]-'0')*10 + int64(b[1]-'0')
+	if len(b) > 2 && b[2] != '.' {
+		return 0, false
+	}
+	digits := 0
+	for _, c := range b[min(len(b), 3):] {
+		if c < '0' || c > '9' {
+			return 0, false
+		}
+		ns = ns*10 + int64(c-'0')
+		digits++
+	}
+	return ns * int64(pow10u[9-digits]), true
+}
+
+// pow10u are the powers of ten a uint64 holds.
+var pow10u = [...]uint64{1, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14,
+	1e15, 1e16, 1e17, 1e18, 1e19}
+
+// timeNS reads a plain decimal time, in units of 10^unit ns, as integer
+// nanoseconds (rounded to the nearest ns), exactly: epoch nanoseconds
+// exceed the 53 bits a double holds.
+func timeNS(b []byte, unit int) (int64, bool) {
+	i, neg := 0, false
+	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
+		neg, i = b[0] == '-', 1
+	}
+	var mant uint64
+	digits, frac, point := 0, 0, false
+	for ; i < len(b); i++ {
+		c := b[i]
+		switch {
+		case c >= '0' && c <= '9':
+			if mant > (math.MaxInt64-9)/10 {
+				return 0, false
+			}
+			mant = mant*10 + uint64(c-'0')
+			digits++
+			if point {
+				frac++
+			}
+		case c == '.' && !point:
+			point = true
+		default:
+			return 0, false
+		}
+	}
+	if digits == 0 {
+		return 0, false
+	}
+	if e := unit - frac; e > 0 {
+		for range e {
+			if mant > math.MaxInt64/10 {
+				return 0, false
+			}
+			mant *= 10
+		}
+	} else if e < 0 {
+		if -e >= len(pow10u) {
+			mant = 0
+		} else {
+			d := pow10u[-e]
+			q, r := mant/d, mant%d
+			if r >= d-r {
+				q++
+			}
+			mant = q
+		}
+	}
+	if neg {
+		return -int64(mant), true
+	}
+	return int64(mant), true
+}
