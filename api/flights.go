@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"mime/multipart"
 	"net/http"
 	"strings"
 	"time"
@@ -120,7 +121,8 @@ func (s *Server) uploadFlight(c *gin.Context) {
 	}
 	var in uploadInput
 	var logData []byte
-	var haveFlight bool
+	var haveFlight, gz bool
+	var mapRef string
 	for {
 		part, err := mr.NextPart()
 		if err == io.EOF {
@@ -145,7 +147,21 @@ func (s *Server) uploadFlight(c *gin.Context) {
 				return
 			}
 			haveFlight = true
+		case "column_map":
+			b, err := io.ReadAll(io.LimitReader(part, 256))
+			if err != nil {
+				s.fail(c, uploadError(err, s.limits))
+				return
+			}
+			if mapRef = strings.TrimSpace(string(b)); mapRef == "" || len(b) == 256 {
+				s.fail(c, fleet.FieldError("column_map", "give a column map's name or id (or native)"))
+				return
+			}
 		case "log":
+			if gz, err = logEncoding(part); err != nil {
+				s.fail(c, err)
+				return
+			}
 			if logData, err = io.ReadAll(io.LimitReader(part, s.limits.LogBytes+1)); err != nil {
 				s.fail(c, uploadError(err, s.limits))
 				return
@@ -156,7 +172,7 @@ func (s *Server) uploadFlight(c *gin.Context) {
 				return
 			}
 		default:
-			s.fail(c, fleet.FieldError(part.FormName(), "is not a known part (send flight and log)"))
+			s.fail(c, fleet.FieldError(part.FormName(), "is not a known part (send flight, log and optionally column_map)"))
 			return
 		}
 	}
@@ -169,7 +185,7 @@ func (s *Server) uploadFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData})
+	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData, Gzip: gz, ColumnMap: mapRef})
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -206,6 +222,19 @@ func (in *uploadInput) flight() (*fleet.Flight, error) {
 		full.AirframeID = *in.AirframeID
 	}
 	return full.flight()
+}
+
+// logEncoding reads whether the log part is gzip-compressed: by its
+// Content-Encoding, or a .gz file name.
+func logEncoding(part *multipart.Part) (bool, error) {
+	switch enc := strings.ToLower(strings.TrimSpace(part.Header.Get("Content-Encoding"))); enc {
+	case "gzip", "x-gzip":
+		return true, nil
+	case "", "identity":
+		return strings.HasSuffix(strings.ToLower(part.FileName()), ".gz"), nil
+	default:
+		return false, fleet.FieldError("log", "Content-Encoding %q is not supported; send the log plain or gzip-compressed", enc)
+	}
 }
 
 func uploadError(err error, l Limits) error {

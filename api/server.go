@@ -99,6 +99,12 @@ var Routes = []Route{
 	{Method: "GET", Path: "/v1/flights/:id", Role: fleet.RoleViewer, handler: (*Server).getFlight},
 	{Method: "GET", Path: "/v1/flights/:id/log", Role: fleet.RoleViewer, handler: (*Server).getFlightLog},
 
+	{Method: "GET", Path: "/v1/column-maps", Role: fleet.RoleViewer, handler: (*Server).listColumnMaps},
+	{Method: "POST", Path: "/v1/column-maps", Role: fleet.RoleTechnician, handler: (*Server).createColumnMap},
+	{Method: "GET", Path: "/v1/column-maps/:id", Role: fleet.RoleViewer, handler: (*Server).getColumnMap},
+	{Method: "PATCH", Path: "/v1/column-maps/:id", Role: fleet.RoleTechnician, handler: (*Server).patchColumnMap},
+	{Method: "DELETE", Path: "/v1/column-maps/:id", Role: fleet.RoleTechnician, handler: (*Server).deleteColumnMap},
+
 	{Method: "GET", Path: "/v1/trace", Role: fleet.RoleViewer, handler: (*Server).trace},
 
 	{Method: "GET", Path: "/v1/events", Role: fleet.RoleViewer, handler: (*Server).listEvents},

@@ -7,8 +7,6 @@ import (
 	"bytes"
 	"compress/gzip"
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -41,10 +39,17 @@ type Ingester struct {
 }
 
 // Request is one upload: the flight as the pilot states it (any of airframe,
-// times and packs may be left for the log's metadata to supply) and the log.
+// times and packs may be left for the log's metadata to supply) and the log
+// as uploaded.
 type Request struct {
 	Flight fleet.Flight
 	Log    []byte
+	// Gzip says the log is gzip-compressed (it is also taken as such when
+	// it starts with gzip's magic bytes).
+	Gzip bool
+	// ColumnMap names the map to read the log through, by name or id, or
+	// "native"; empty: the map the header selects, else the native layout.
+	ColumnMap string
 }
 
 // Result says which flight the log belongs to and whether it is new.
@@ -52,6 +57,8 @@ type Result struct {
 	FlightID string
 	Created  bool
 	Unknown  []string // columns the parser ignored
+	// ColumnMap is the map the log was read through (nil: native layout).
+	ColumnMap *fleet.ColumnMap
 	// HealthErr is a failed health refresh after the flight was recorded.
 	HealthErr error
 }
@@ -59,18 +66,17 @@ type Result struct {
 // Ingest parses, analyses and stores one log. The same log for the same
 // airframe returns the flight already recorded (Created false).
 func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
-	sum := sha256.Sum256(req.Log)
-	sha := hex.EncodeToString(sum[:])
-	log, err := telemetry.Parse(bytes.NewReader(req.Log), in.Limits)
+	rd, err := ReadLog(req.Log, req.Gzip, in.Limits, in.Picker(ctx, req.ColumnMap))
 	if err != nil {
 		return Result{}, err
 	}
+	log, sha := rd.Log, rd.SHA256
 	f := req.Flight
 	if err := in.resolve(ctx, &f, log); err != nil {
 		return Result{}, err
 	}
 	if id, err := in.DB.FlightIDByLog(ctx, f.AirframeID, sha); err == nil {
-		return Result{FlightID: id, Unknown: log.Unknown}, nil
+		return Result{FlightID: id, Unknown: log.Unknown, ColumnMap: rd.Map}, nil
 	} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
 		return Result{}, err
 	}
@@ -88,16 +94,19 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		return Result{}, err
 	}
 	f.Source, f.LogSHA256 = fleet.SourceLog, &sha
-	gz, err := compress(req.Log)
-	if err != nil {
-		return Result{}, err
+	// The raw log is kept as uploaded: a gzip upload is stored as it came.
+	gz := req.Log
+	if !rd.Gzip {
+		if gz, err = compress(req.Log); err != nil {
+			return Result{}, err
+		}
 	}
 	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz,
-		RawBytes: int64(len(req.Log)), Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Analysis: a})
+		RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Analysis: a, ColumnMap: rd.Map})
 	if err != nil {
 		return Result{}, err
 	}
-	res := Result{FlightID: id, Created: created, Unknown: log.Unknown}
+	res := Result{FlightID: id, Created: created, Unknown: log.Unknown, ColumnMap: rd.Map}
 	if created && in.Health != nil {
 		// The flight is recorded; a failed refresh is repaired by the next
 		// refresh or a fleet recompute, so it does not fail the upload.
@@ -313,7 +322,8 @@ func compress(b []byte) ([]byte, error) {
 	return buf.Bytes(), nil
 }
 
-// Decompress returns a stored log's text.
+// Decompress returns a stored log's text (a stored gzip upload may hold
+// several gzip members; all are read).
 func Decompress(gz []byte) ([]byte, error) {
 	r, err := gzip.NewReader(bytes.NewReader(gz))
 	if err != nil {
@@ -354,8 +364,10 @@ func (in *Ingester) reanalyseOne(ctx context.Context, s store.StoredLog) error {
 		return err
 	}
 	// Stored logs were accepted once; the limits may have shrunk since, which
-	// must not make history unreadable.
-	log, err := telemetry.Parse(bytes.NewReader(raw), telemetry.Limits{MaxRows: math.MaxInt32, MaxBytes: int64(len(raw)) + 1})
+	// must not make history unreadable. A mapped log is re-read through the
+	// map's version it was first read through.
+	log, err := telemetry.ParseMapped(bytes.NewReader(raw), s.ColumnMap,
+		telemetry.Limits{MaxRows: math.MaxInt32, MaxBytes: int64(len(raw)) + 1})
 	if err != nil {
 		return err
 	}

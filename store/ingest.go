@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -90,6 +91,9 @@ type LoggedFlight struct {
 	Unknown  []string
 	Samples  int
 	Analysis *Analysis
+	// ColumnMap is the map (at its version) the log was read through; nil
+	// for the native layout.
+	ColumnMap *fleet.ColumnMap
 }
 
 // CreateLoggedFlight writes the flight, packs, compressed log, figures, motor
@@ -126,10 +130,17 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 			return err
 		}
 		id, created = out.ID, true
+		var mapID *string
+		var mapVersion *int
+		if lf.ColumnMap != nil {
+			mapID, mapVersion = &lf.ColumnMap.ID, &lf.ColumnMap.Version
+		}
 		if _, err := tx.Exec(ctx, `
-			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8)`,
-			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version); err != nil {
+			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version,
+				column_map_id, column_map_version)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
+			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version,
+			mapID, mapVersion); err != nil {
 			return err
 		}
 		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
@@ -224,6 +235,9 @@ type StoredLog struct {
 	Flight  *fleet.Flight
 	RawGz   []byte
 	Version int
+	// ColumnMap is the map at the version the log was read through (nil:
+	// the native layout).
+	ColumnMap *fleet.ColumnMap
 }
 
 // StoredLogs returns up to limit stored logs after the flight id (keyset).
@@ -233,8 +247,10 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]Stor
 		after = &afterID
 	}
 	rows, err := db.pool.Query(ctx, `
-		SELECT `+prefixed("f.", flightCols)+`, l.raw_gz, l.analysis_version
+		SELECT `+prefixed("f.", flightCols)+`, l.raw_gz, l.analysis_version,
+			v.map_id, v.name, v.version, v.body, v.saved_at
 		FROM flight_logs l JOIN flights f ON f.id = l.flight_id
+		LEFT JOIN column_map_versions v ON v.map_id = l.column_map_id AND v.version = l.column_map_version
 		WHERE ($1::uuid IS NULL OR l.flight_id > $1) ORDER BY l.flight_id LIMIT $2`, after, limit)
 	if err != nil {
 		return nil, translate(err)
@@ -242,10 +258,24 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]Stor
 	out, err := collect(rows, func(r pgx.Row) (StoredLog, error) {
 		var s StoredLog
 		var f fleet.Flight
+		var mapID, mapName *string
+		var mapVersion *int
+		var mapBodyRaw []byte
+		var savedAt *time.Time
 		err := r.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &s.RawGz, &s.Version)
+			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &s.RawGz, &s.Version,
+			&mapID, &mapName, &mapVersion, &mapBodyRaw, &savedAt)
 		s.Flight = &f
-		return s, err
+		if err != nil || mapID == nil {
+			return s, err
+		}
+		var b mapBody
+		if err := json.Unmarshal(mapBodyRaw, &b); err != nil {
+			return s, fmt.Errorf("column map %s version %d: stored body: %w", *mapID, *mapVersion, err)
+		}
+		s.ColumnMap = &fleet.ColumnMap{ID: *mapID, Name: *mapName, Version: *mapVersion, UpdatedAt: *savedAt}
+		b.onto(s.ColumnMap)
+		return s, nil
 	})
 	if err != nil {
 		return nil, err
@@ -273,6 +303,15 @@ type LogInfo struct {
 	UnknownColumns  []string  `json:"unknown_columns"`
 	AnalysedAt      time.Time `json:"analysed_at"`
 	AnalysisVersion int       `json:"analysis_version"`
+	// ColumnMap is the map the log was read through; null for the native layout.
+	ColumnMap *MapRef `json:"column_map"`
+}
+
+// MapRef names a column map at a version.
+type MapRef struct {
+	ID      string `json:"id"`
+	Name    string `json:"name"` // as of that version
+	Version int    `json:"version"`
 }
 
 // FlightDetail is a flight with everything computed from its log.
@@ -297,12 +336,21 @@ func (db *DB) FlightDetail(ctx context.Context, id string) (*FlightDetail, error
 	}
 	d := NewFlightDetail(f)
 	var li LogInfo
+	var mapID, mapName *string
+	var mapVersion *int
 	err = db.pool.QueryRow(ctx, `
-		SELECT sha256, raw_bytes, samples, columns, unknown_columns, analysed_at, analysis_version
-		FROM flight_logs WHERE flight_id = $1`, id).
-		Scan(&li.SHA256, &li.Bytes, &li.Samples, &li.Columns, &li.UnknownColumns, &li.AnalysedAt, &li.AnalysisVersion)
+		SELECT l.sha256, l.raw_bytes, l.samples, l.columns, l.unknown_columns, l.analysed_at, l.analysis_version,
+			v.map_id, v.name, v.version
+		FROM flight_logs l
+		LEFT JOIN column_map_versions v ON v.map_id = l.column_map_id AND v.version = l.column_map_version
+		WHERE l.flight_id = $1`, id).
+		Scan(&li.SHA256, &li.Bytes, &li.Samples, &li.Columns, &li.UnknownColumns, &li.AnalysedAt, &li.AnalysisVersion,
+			&mapID, &mapName, &mapVersion)
 	switch {
 	case err == nil:
+		if mapID != nil {
+			li.ColumnMap = &MapRef{ID: *mapID, Name: *mapName, Version: *mapVersion}
+		}
 		d.Log = &li
 	case err != pgx.ErrNoRows:
 		return nil, translate(err)

@@ -217,6 +217,7 @@ var constraintErrors = map[string]struct{ field, msg string }{
 	"layouts_pkey":                  {"name", "a layout with this name exists"},
 	"flight_packs_part_id_fkey":     {"packs", "unknown pack"},
 	"flights_airframe_id_fkey":      {"airframe_id", "unknown airframe"},
+	"column_maps_name_key":          {"name", "a column map with this name exists"},
 }
 
 // translate maps PostgreSQL errors to fleet errors, trusting constraints
