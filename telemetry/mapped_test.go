@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"strings"
 	"testing"
 	"time"
@@ -320,4 +321,29 @@ func TestMappedRFC3339Rows(t *testing.T) {
 	}
 	_, err := telemetry.ParseMapped(strings.NewReader(in+"2026-05-04T10:01:60Z,1,1\n"), m, telemetry.Limits{})
 	wantRefusal(t, err, len(rows)+2, "T", "t_s", "is not an RFC 3339 time")
+}
+
+// The README's column map example (map and export) must stay true: the map
+// validates and the export reads through it to the values it stands for.
+func TestReadmeColumnMapExample(t *testing.T) {
+	src, err := os.ReadFile("../README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, sec, _ := strings.Cut(string(src), "### Logs in other layouts")
+	block := func(fence string) string {
+		_, after, ok := strings.Cut(sec, fence+"\n")
+		body, _, ok2 := strings.Cut(after, "```")
+		if !ok || !ok2 {
+			t.Fatalf("no %s block in the README's column map section", fence)
+		}
+		return body
+	}
+	m := mapOf(t, block("```json"))
+	l := parseMapped(t, m, block("```"))
+	if l.Rows != 3 || l.PackV[2] != 24.6 || l.PackA[2] != 18.2 || l.Baro[0] != 98012 || len(l.RPM) != 4 ||
+		math.Abs(l.Temp[0]-14.5) > 1e-12 || l.T[2] != 0.04 || fmt.Sprint(l.Unknown) != "[Mode]" {
+		t.Fatalf("README example read as rows %d v %v a %v baro %v temp %v t %v unknown %v",
+			l.Rows, l.PackV, l.PackA, l.Baro, l.Temp, l.T, l.Unknown)
+	}
 }

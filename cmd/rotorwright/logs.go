@@ -21,13 +21,16 @@ import (
 )
 
 func (c *cli) importCmd() *cobra.Command {
-	var code, pilot, override string
+	var code, pilot, override, mapRef string
 	cmd := &cobra.Command{
 		Use:   "import DIR --airframe CODE",
-		Short: "Ingest every *.csv flight log in a folder, with a progress bar and a summary",
-		Long: `Ingest every *.csv flight log in DIR for one airframe, with a progress bar and
-a summary. A log already stored is reported as present, not duplicated; a bad
-file is listed with its line and column and the others are still imported.`,
+		Short: "Ingest every *.csv (and *.csv.gz) flight log in a folder, with a progress bar and a summary",
+		Long: `Ingest every *.csv and *.csv.gz flight log in DIR for one airframe, with a
+progress bar and a summary. A log already stored is reported as present, not
+duplicated; a bad file is listed with its line and column and the others are
+still imported. Logs in another layout are read through the column map named by
+--column-map, else through the map their header selects, else as the native
+layout (check a file first with 'rotorwright column-map check').`,
 		Args: func(_ *cobra.Command, args []string) error {
 			if len(args) != 1 {
 				return usagef("import takes one folder of logs, got %d arguments", len(args))
@@ -44,18 +47,24 @@ file is listed with its line and column and the others are still imported.`,
 	cmd.Flags().StringVar(&code, "airframe", "", "tail code of the airframe the logs belong to")
 	cmd.Flags().StringVar(&pilot, "pilot", "not recorded", "pilot to record on each flight")
 	cmd.Flags().StringVar(&override, "override", "", "record the flights even if the airframe is not ready, for this reason")
+	cmd.Flags().StringVar(&mapRef, "column-map", "", "read every log through this column map (name or id; native for the service's own layout)")
 	return c.tool(cmd, func(ctx context.Context, app *App, args []string) error {
-		return importDir(ctx, app, args[0], code, pilot, override)
+		return importDir(ctx, app, args[0], code, pilot, override, mapRef)
 	})
 }
 
-func importDir(ctx context.Context, app *App, dir, code, pilot, override string) error {
-	files, err := filepath.Glob(filepath.Join(dir, "*.csv"))
+func importDir(ctx context.Context, app *App, dir, code, pilot, override, mapRef string) error {
+	files, err := logFiles(dir)
 	if err != nil {
 		return err
 	}
 	if len(files) == 0 {
-		return fmt.Errorf("no .csv logs in %s", dir)
+		return fmt.Errorf("no .csv or .csv.gz logs in %s", dir)
+	}
+	if mapRef != "" && !strings.EqualFold(mapRef, fleet.NativeLayout) {
+		if _, err := app.DB.ColumnMapByRef(ctx, mapRef); err != nil {
+			return fmt.Errorf("column map %s: %s", mapRef, fleet.ErrorMessage(err))
+		}
 	}
 	sort.Strings(files)
 	a, err := app.DB.AirframeByCode(ctx, code)
@@ -81,7 +90,8 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override string)
 	var refused []string
 	start := time.Now()
 	for _, path := range files {
-		res, err := importOne(ctx, in, path, a.ID, pilot, reasonPtr)
+		res, err := importOne(ctx, in, path, ingest.Request{ColumnMap: mapRef,
+			Flight: fleet.Flight{AirframeID: a.ID, Pilot: pilot, OverrideReason: reasonPtr}})
 		switch {
 		case err != nil:
 			refused = append(refused, fmt.Sprintf("  %s: %s", filepath.Base(path), reason(err)))
@@ -103,24 +113,26 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override string)
 	return nil
 }
 
-func importOne(ctx context.Context, in *ingest.Ingester, path, airframeID, pilot string, override *string) (ingest.Result, error) {
+// importOne ingests one file; a .gz name marks it gzip-compressed (as does
+// its content).
+func importOne(ctx context.Context, in *ingest.Ingester, path string, req ingest.Request) (ingest.Result, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return ingest.Result{}, err
 	}
-	return in.Ingest(ctx, ingest.Request{Flight: fleet.Flight{AirframeID: airframeID, Pilot: pilot, OverrideReason: override}, Log: b})
+	req.Log, req.Gzip = b, strings.HasSuffix(strings.ToLower(path), ".gz")
+	return in.Ingest(ctx, req)
 }
 
-// reason is an error as a person reads it: the message, where in the file,
-// or which field.
+// reason is an error as a person reads it: where in the file (line and
+// column, with the column's target when read through a map) or which field,
+// then the message.
 func reason(err error) string {
 	var fe *fleet.Error
 	if !errors.As(err, &fe) {
 		return err.Error()
 	}
 	switch {
-	case fe.Line > 0:
-		return fmt.Sprintf("line %d, column %s: %s", fe.Line, fe.Column, fe.Message)
 	case fe.Field != "":
 		return fmt.Sprintf("%s: %s", fe.Field, fe.Message)
 	}

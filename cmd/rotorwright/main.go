@@ -110,6 +110,7 @@ maintenance personnel, the manufacturer's instructions and local aviation rules.
 		c.migrateCmd(),
 		c.keyCmd(),
 		c.importCmd(),
+		c.columnMapCmd(),
 		c.reanalyzeCmd(),
 		c.recomputeCmd(),
 		c.dueCmd(),
