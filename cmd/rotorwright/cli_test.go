@@ -140,7 +140,7 @@ func TestFlagsInAnyOrder(t *testing.T) {
 		{"import", "--database-url", url, "--airframe=RW-07", "--pilot", "A. Moreau", dir},
 	} {
 		_, errOut, code := runCLI(t, args...)
-		if code != exitFailure || !strings.Contains(errOut, "no .csv logs in "+dir) {
+		if code != exitFailure || !strings.Contains(errOut, "no .csv or .csv.gz logs in "+dir) {
 			t.Errorf("%v: exit %d, stderr %q; want 1 and no .csv logs", args, code, errOut)
 		}
 	}
