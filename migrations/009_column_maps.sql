@@ -29,3 +29,7 @@ ALTER TABLE flight_logs
         REFERENCES column_map_versions (map_id, version),
     ADD CONSTRAINT flight_logs_column_map_both CHECK ((column_map_id IS NULL) = (column_map_version IS NULL));
 CREATE INDEX flight_logs_column_map_idx ON flight_logs (column_map_id) WHERE column_map_id IS NOT NULL;
+
+-- Versions are history: the service adds them and never edits them (they go
+-- only with their map, by the cascade, when no flight was read through it).
+REVOKE UPDATE, DELETE ON column_map_versions FROM rotorwright_service;
