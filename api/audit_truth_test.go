@@ -75,6 +75,15 @@ func TestPatchAuditMatchesReads(t *testing.T) {
 	var evID idBody
 	ev.decode(t, &evID)
 
+	cmap := e.call("POST", "/v1/column-maps", tech, map[string]any{"name": "AT map", "time": map[string]any{"column": "T"},
+		"columns": map[string]any{"pack_v": map[string]any{"from": "V"}, "pack_a": map[string]any{"from": "A", "scale": 0.01}},
+		"detect": []string{"T", "V"}})
+	if cmap.Status != 201 {
+		t.Fatalf("column map: %d %s", cmap.Status, cmap.Body)
+	}
+	var cmapID idBody
+	cmap.decode(t, &cmapID)
+
 	type patch struct {
 		body   string
 		status int
@@ -117,6 +126,13 @@ func TestPatchAuditMatchesReads(t *testing.T) {
 			{`{"flight_hours":null,"days":90}`, 200},
 			{`{"description":"after any event of these kinds"}`, 200},
 			{`{"on_events":["nope"]}`, 400},
+		}},
+		{"column_map", "/v1/column-maps/" + cmapID.ID, tech, []patch{
+			{`{"detect":["T","V","A"]}`, 200},
+			{`{"columns":{"pack_v":{"from":"V","scale":0.001},"pack_a":{"from":"A","negate":true}}}`, 200},
+			{`{"time":{"column":"T","unit":"ms","origin":"start"},"delimiter":";"}`, 200},
+			{`{"detect":[]}`, 200},
+			{`{"columns":{"pack_v":{"from":"V","scale":0}}}`, 400},
 		}},
 		{"event", "/v1/events/" + evID.ID, tech, []patch{
 			{`{"detail":"peak 95 A"}`, 200},

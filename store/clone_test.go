@@ -88,5 +88,6 @@ func TestCloneSharesNothing(t *testing.T) {
 	checkClone[fleet.WorkRecord](t, "work record")
 	checkClone[fleet.Flight](t, "flight")
 	checkClone[fleet.Fit](t, "fit")
+	checkClone[fleet.ColumnMap](t, "column map")
 	checkClone[map[string][]byte](t, "map")
 }

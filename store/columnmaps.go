@@ -165,21 +165,17 @@ func (db *DB) UpdateColumnMap(ctx context.Context, id string, version int, fn fu
 		if before.Version != version {
 			return versionMismatch()
 		}
-		m := *before
-		m.Columns = fleet.MapColumns{}
-		for t, s := range before.Columns {
-			m.Columns[t] = s
-		}
-		if err := fn(&m); err != nil {
+		m := clone(before)
+		if err := fn(m); err != nil {
 			return err
 		}
 		if err := m.Validate(); err != nil {
 			return err
 		}
-		if err := checkDetectClash(ctx, tx, &m, id); err != nil {
+		if err := checkDetectClash(ctx, tx, m, id); err != nil {
 			return err
 		}
-		body, err := json.Marshal(bodyOf(&m))
+		body, err := json.Marshal(bodyOf(m))
 		if err != nil {
 			return err
 		}
