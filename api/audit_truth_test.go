@@ -77,7 +77,7 @@ func TestPatchAuditMatchesReads(t *testing.T) {
 
 	cmap := e.call("POST", "/v1/column-maps", tech, map[string]any{"name": "AT map", "time": map[string]any{"column": "T"},
 		"columns": map[string]any{"pack_v": map[string]any{"from": "V"}, "pack_a": map[string]any{"from": "A", "scale": 0.01}},
-		"detect": []string{"T", "V"}})
+		"detect":  []string{"T", "V"}})
 	if cmap.Status != 201 {
 		t.Fatalf("column map: %d %s", cmap.Status, cmap.Body)
 	}
