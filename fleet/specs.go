@@ -15,8 +15,11 @@ type MotorSpecs struct {
 	Bearing  *BearingSpecs `json:"bearing,omitempty"`
 }
 
-// BearingSpecs describe a motor's ball bearings (per bearing).
+// BearingSpecs describe a motor's bearings (per bearing).
 type BearingSpecs struct {
+	// Type is "ball" (the default when empty) or "roller": ISO 281 gives
+	// their load-life exponents 3 and 10/3.
+	Type           string   `json:"type,omitempty"`
 	Count          int      `json:"count"`
 	DynamicRatingN *float64 `json:"dynamic_rating_n,omitempty"`
 	StaticRatingN  *float64 `json:"static_rating_n,omitempty"`
@@ -101,6 +104,9 @@ func (s MotorSpecs) validate() error {
 	if b := s.Bearing; b != nil {
 		if b.Count < 1 || b.Count > 4 {
 			return FieldError("specs.bearing.count", "must be 1 to 4")
+		}
+		if b.Type != "" && b.Type != "ball" && b.Type != "roller" {
+			return FieldError("specs.bearing.type", "must be ball or roller")
 		}
 		if b.DynamicRatingN != nil && *b.DynamicRatingN <= 0 {
 			return FieldError("specs.bearing.dynamic_rating_n", "must be positive")

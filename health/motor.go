@@ -26,6 +26,7 @@ type MotorView struct {
 
 // BearingSettings are the bearing model settings used.
 type BearingSettings struct {
+	Type           string   `json:"type"` // ball or roller (ISO 281 life exponent 3 or 10/3)
 	DynamicRatingN *float64 `json:"dynamic_rating_n"`
 	StaticRatingN  *float64 `json:"static_rating_n"`
 	Count          int      `json:"count"`
@@ -65,9 +66,12 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 		return err
 	}
 	m := wear.BearingModel{BalanceGrade_mm_s: s.Settings.BalanceGrade, RotorMassKg: s.Settings.RotorMassKg}
-	set := BearingSettings{BalanceGrade: m.BalanceGrade_mm_s, RotorMassKg: m.RotorMassKg, LifeFactor: 1, Count: 2}
+	set := BearingSettings{Type: string(wear.Ball), BalanceGrade: m.BalanceGrade_mm_s, RotorMassKg: m.RotorMassKg, LifeFactor: 1, Count: 2}
 	if b := specs.Bearing; b != nil {
 		m.Count, set.Count = b.Count, b.Count
+		if b.Type != "" {
+			m.Type, set.Type = wear.BearingType(b.Type), b.Type
+		}
 		if b.DynamicRatingN != nil {
 			m.C_N, set.DynamicRatingN = *b.DynamicRatingN, b.DynamicRatingN
 		}

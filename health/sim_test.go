@@ -19,11 +19,13 @@ import (
 )
 
 type rig struct {
-	t   testing.TB
-	ctx context.Context
-	db  *store.DB
-	in  *ingest.Ingester
-	hs  *health.Service
+	// bearingType, when set, is the motors' specs.bearing.type.
+	bearingType string
+	t           testing.TB
+	ctx         context.Context
+	db          *store.DB
+	in          *ingest.Ingester
+	hs          *health.Service
 }
 
 func newRig(t *testing.T) *rig {
@@ -51,7 +53,11 @@ func (r *rig) quad(code string, c float64, pack sim.PackState) (af *fleet.Airfra
 	for i, rot := range []string{"ccw", "cw", "ccw", "cw"} {
 		specs := map[string]any{"rotation": rot}
 		if c > 0 {
-			specs["bearing"] = map[string]any{"count": 2, "dynamic_rating_n": c}
+			b := map[string]any{"count": 2, "dynamic_rating_n": c}
+			if r.bearingType != "" {
+				b["type"] = r.bearingType
+			}
+			specs["bearing"] = b
 		}
 		raw, _ := json.Marshal(specs)
 		m, err := r.db.CreatePart(r.ctx, &fleet.Part{Kind: fleet.KindMotor, Serial: fmt.Sprintf("%s-M%d", code, i+1),
@@ -247,22 +253,24 @@ func cyc(p *float64) string {
 
 // Two identical quads, one flying 30 % heavier: hover thrust scales with mass
 // m and rotor speed with sqrt(m) (T = k rpm^2), so with the ISO 281 load-life
-// law L = (C/P)^3 revolutions and P dominated by thrust, bearing damage per
-// hour scales as rpm P^3 ~ m^3.5. The heavier quad's motors must age by that
-// ratio.
+// law L = (C/P)^p revolutions and P dominated by thrust, bearing damage per
+// hour scales as rpm P^p ~ m^(p + 0.5): m^3.5 for ball bearings (p = 3),
+// m^3.83 for roller bearings (p = 10/3, the motor's specs.bearing.type).
+// The heavier quad's motors must age by that ratio.
 func TestHardDutyMotorAgesByLoadLifeRatio(t *testing.T) {
 	// Absolute mode (bearing rating C given) and relative mode (no rating: the
 	// rated interval at the model's median duty) must both follow the law.
 	for _, c := range []struct {
-		name   string
-		rating float64
-	}{{"absolute", 2000}, {"relative", 0}} {
-		t.Run(c.name, func(t *testing.T) { hardDuty(t, c.name, c.rating) })
+		name, mode, bearing string
+		rating, p           float64
+	}{{"absolute", "absolute", "", 2000, 3}, {"relative", "relative", "", 0, 3}, {"absolute roller", "absolute", "roller", 2000, 10.0 / 3}} {
+		t.Run(c.name, func(t *testing.T) { hardDuty(t, c.mode, c.bearing, c.rating, c.p) })
 	}
 }
 
-func hardDuty(t *testing.T, mode string, rating float64) {
+func hardDuty(t *testing.T, mode, bearing string, rating, p float64) {
 	r := newRig(t)
+	r.bearingType = bearing
 	pack := sim.PackState{Serial: "DUTY-G", Chemistry: sim.LiPo, CellsS: 4, CellsP: 1, RatedMah: 8000,
 		BaselineIRmOhm: 16, StartSoC: 1}
 	gentle, gm, gp := r.quad("GD-01", rating, pack)
@@ -290,7 +298,7 @@ func hardDuty(t *testing.T, mode string, rating float64) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if v.Motor == nil || v.Motor.Mode != mode || v.Motor.Flights != 4 {
+			if v.Motor == nil || v.Motor.Mode != mode || v.Motor.Flights != 4 || (bearing != "" && v.Motor.Model.Type != bearing) {
 				t.Fatalf("motor view %+v notes %v", v.Motor, v.Notes)
 			}
 			sum += v.Motor.ConsumedFraction / v.Motor.RunHours
@@ -298,8 +306,8 @@ func hardDuty(t *testing.T, mode string, rating float64) {
 		return sum
 	}
 	got := damage(hm) / damage(gm)
-	want := math.Pow(ratio, 3.5)
-	t.Logf("%s: damage-rate ratio %.4f, load-life law %.4f", mode, got, want)
+	want := math.Pow(ratio, p+0.5)
+	t.Logf("%s %s: damage-rate ratio %.4f, load-life law %.4f (p = %.4f)", mode, bearing, got, want, p)
 	// 5 %: manoeuvres, the small unbalance load and the e/Y factors make the
 	// load not exactly proportional to weight.
 	if math.Abs(got/want-1) > 0.05 {

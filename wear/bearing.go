@@ -6,25 +6,56 @@ import (
 	"github.com/rotorwright/rotorwright/fleet"
 )
 
-// BallLifeExponent is the ISO 281 load-life exponent p for ball bearings.
-const BallLifeExponent = 3.0
+// BearingType is a rolling bearing's kind; its ISO 281 load-life exponent
+// differs.
+type BearingType string
 
-// L10 returns the ISO 281 basic rating life of a ball bearing in millions of
-// revolutions, (C/P)^3, for dynamic rating c and equivalent load p (same unit).
-func L10(c, p float64) (float64, error) {
+// Bearing types; the zero value is a ball bearing, the usual kind in a
+// multirotor motor.
+const (
+	Ball   BearingType = "ball"
+	Roller BearingType = "roller"
+)
+
+// ISO 281 load-life exponents p of L10 = (C/P)^p.
+const (
+	BallLifeExponent   = 3.0
+	RollerLifeExponent = 10.0 / 3
+)
+
+// LifeExponent returns the ISO 281 exponent of the bearing type: 3 for ball
+// bearings, 10/3 for roller bearings ("" is ball).
+func (t BearingType) LifeExponent() (float64, error) {
+	switch t {
+	case "", Ball:
+		return BallLifeExponent, nil
+	case Roller:
+		return RollerLifeExponent, nil
+	}
+	return 0, fleet.FieldError("type", "bearing type %q is neither ball nor roller", t)
+}
+
+// L10 returns the ISO 281 basic rating life in millions of revolutions,
+// (C/P)^p with p the type's exponent, for dynamic rating c and equivalent
+// load p (same unit).
+func L10(t BearingType, c, p float64) (float64, error) {
+	exp, err := t.LifeExponent()
+	if err != nil {
+		return 0, err
+	}
 	if !(c > 0) || !finite(c) {
 		return 0, fleet.FieldError("C_N", "dynamic rating must be positive")
 	}
 	if !(p > 0) || !finite(p) {
 		return 0, fleet.FieldError("P", "equivalent load must be positive")
 	}
-	return math.Pow(c/p, BallLifeExponent), nil
+	return math.Pow(c/p, exp), nil
 }
 
 // L10Hours returns the ISO 281 basic rating life in hours at a constant speed
-// rpm: 10^6 / (60 n) (C/P)^3.
-func L10Hours(c, p, rpm float64) (float64, error) {
-	l, err := L10(c, p)
+// rpm: 10^6 / (60 n) (C/P)^p.
+func L10Hours(t BearingType, c, p, rpm float64) (float64, error) {
+	l, err := L10(t, c, p)
 	if err != nil {
 		return 0, err
 	}
@@ -54,7 +85,7 @@ func ReliabilityFactor(reliabilityPct float64) (float64, error) {
 }
 
 // ModifiedLife returns Lnm = a1 a_ISO L10 in millions of revolutions.
-func ModifiedLife(c, p, reliabilityPct, aISO float64) (float64, error) {
+func ModifiedLife(t BearingType, c, p, reliabilityPct, aISO float64) (float64, error) {
 	a1, err := ReliabilityFactor(reliabilityPct)
 	if err != nil {
 		return 0, err
@@ -62,7 +93,7 @@ func ModifiedLife(c, p, reliabilityPct, aISO float64) (float64, error) {
 	if !(aISO > 0) || !finite(aISO) {
 		return 0, fleet.FieldError("AISO", "a_ISO must be positive")
 	}
-	l, err := L10(c, p)
+	l, err := L10(t, c, p)
 	if err != nil {
 		return 0, err
 	}
@@ -126,24 +157,29 @@ type DutyStep struct {
 }
 
 // DutyCycleMean returns the mean equivalent load and mean speed of a duty
-// cycle: P_m = (sum P^3 n t / sum n t)^(1/3), n_m = sum n t / sum t.
-func DutyCycleMean(steps []DutyStep) (pm, nm float64, err error) {
+// cycle: P_m = (sum P^p n t / sum n t)^(1/p), n_m = sum n t / sum t, p the
+// type's life exponent.
+func DutyCycleMean(t BearingType, steps []DutyStep) (pm, nm float64, err error) {
+	exp, err := t.LifeExponent()
+	if err != nil {
+		return 0, 0, err
+	}
 	if err := checkSteps(steps); err != nil {
 		return 0, 0, err
 	}
 	var spnt, snt, st float64
 	for _, s := range steps {
-		spnt += math.Pow(s.LoadN, BallLifeExponent) * s.RPM * s.TimeShare
+		spnt += math.Pow(s.LoadN, exp) * s.RPM * s.TimeShare
 		snt += s.RPM * s.TimeShare
 		st += s.TimeShare
 	}
-	return math.Pow(spnt/snt, 1/BallLifeExponent), snt / st, nil
+	return math.Pow(spnt/snt, 1/exp), snt / st, nil
 }
 
 // MinerLifeHours returns the L10 life in hours of a duty cycle by
 // Palmgren-Miner summation: each running hour uses sum t_i / L10h_i of the
 // life, and failure is predicted when the damage reaches 1.
-func MinerLifeHours(c float64, steps []DutyStep) (float64, error) {
+func MinerLifeHours(t BearingType, c float64, steps []DutyStep) (float64, error) {
 	if err := checkSteps(steps); err != nil {
 		return 0, err
 	}
@@ -155,7 +191,7 @@ func MinerLifeHours(c float64, steps []DutyStep) (float64, error) {
 		if s.TimeShare == 0 {
 			continue
 		}
-		lh, err := L10Hours(c, s.LoadN, s.RPM)
+		lh, err := L10Hours(t, c, s.LoadN, s.RPM)
 		if err != nil {
 			return 0, err
 		}

@@ -24,7 +24,7 @@ func relNear(t *testing.T, what string, got, want, rel float64) {
 func TestL10Hours(t *testing.T) {
 	// ISO 281 hours form L10h = 10^6/(60 n) (C/P)^3 (computed):
 	// C/P = 20, n = 8000 r/min -> 10^6/480000 * 8000 = 16666.67 h.
-	h, err := L10Hours(2000, 100, 8000)
+	h, err := L10Hours(Ball, 2000, 100, 8000)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -32,13 +32,68 @@ func TestL10Hours(t *testing.T) {
 	// Shigley, Mechanical Engineering Design, Example 11-1 (from memory): a
 	// ball bearing for 5 kh at 1725 r/min under 1 kN needs C10 = 8.03 kN; so
 	// C = 8.03 kN at 1 kN and 1725 r/min gives about 5000 h (C rounded).
-	h, err = L10Hours(8030, 1000, 1725)
+	h, err = L10Hours(Ball, 8030, 1000, 1725)
 	if err != nil {
 		t.Fatal(err)
 	}
 	near(t, "Shigley 11-1 L10h", h, 5000, 5000*0.002)
-	if _, err := L10Hours(2000, 0, 8000); fleet.ErrorCode(err) != fleet.EINVALID {
+	if _, err := L10Hours(Ball, 2000, 0, 8000); fleet.ErrorCode(err) != fleet.EINVALID {
 		t.Errorf("zero load: got %v, want invalid", err)
+	}
+	if _, err := L10(BearingType("needle"), 2000, 100); fleet.ErrorCode(err) != fleet.EINVALID {
+		t.Errorf("unknown type: got %v, want invalid", err)
+	}
+}
+
+// ISO 281 life exponents, ball 3 and roller 10/3, against two worked
+// problems of one source: Shigley's Mechanical Engineering Design, 8th
+// edition (Budynas and Nisbett), solutions manual, chapter 11.
+func TestLifeExponentShigley(t *testing.T) {
+	// Problem 11-2, angular-contact ball bearing: design life 50 kh at
+	// 480 rev/min, x_D = 50000 (480) (60) / 10^6 = 1440 rating lives; design
+	// load F_D = 1.4 (610) = 854 lbf; C10 = 9665 lbf. Shigley reaches C10
+	// through his Weibull reliability relation at R = 0.90 (x0 = 0.02,
+	// theta - x0 = 4.439, b = 1.483), so the rating life it gives is
+	// x_D / (x0 + (theta - x0) (ln 1/R)^(1/b)) = 1440 / 0.99348 = 1449.4.
+	// Tolerance 0.05 %: C10 given to the pound (3 x 0.005 %).
+	lives := 1440 / (0.02 + 4.439*math.Pow(math.Log(1/0.9), 1/1.483))
+	l, err := L10(Ball, 9665, 854)
+	if err != nil {
+		t.Fatal(err)
+	}
+	relNear(t, "ball L10 (Shigley 8e 11-2)", l, lives, 5e-4)
+
+	// Problem 11-3, straight (cylindrical) roller bearing on the same shaft:
+	// x_D = 1440, F_D = 1.4 (1650) = 2310 lbf = 10.279 kN, R = 0.90 taken as
+	// the rating reliability: C10 = 10.279 (1440)^(3/10) = 91.1 kN. So
+	// (91.1 / 10.279)^(10/3) must give back 1440 rating lives. Tolerance
+	// 0.2 %: C10 given to three figures (10/3 x 0.055 %).
+	l, err = L10(Roller, 91.1, 10.279)
+	if err != nil {
+		t.Fatal(err)
+	}
+	relNear(t, "roller L10 (Shigley 8e 11-3)", l, 1440, 2e-3)
+	// The ball exponent on the same bearing would be far off: (8.863)^3 = 696.
+	if lb, _ := L10(Ball, 91.1, 10.279); math.Abs(lb/1440-1) < 0.5 {
+		t.Errorf("ball exponent gives %v: the test does not tell the exponents apart", lb)
+	}
+
+	// The type carries through the duty-cycle and Palmgren-Miner routes,
+	// which still agree (the computed example of REFERENCES.md section 1,
+	// with p = 10/3).
+	pm, nm, err := DutyCycleMean(Roller, refDuty)
+	if err != nil {
+		t.Fatal(err)
+	}
+	viaMean, _ := L10Hours(Roller, 2000, pm, nm)
+	viaMiner, err := MinerLifeHours(Roller, 2000, refDuty)
+	if err != nil {
+		t.Fatal(err)
+	}
+	relNear(t, "roller routes agree", viaMiner, viaMean, 1e-12)
+	ballMiner, _ := MinerLifeHours(Ball, 2000, refDuty)
+	if math.Abs(viaMiner/ballMiner-1) < 0.1 {
+		t.Errorf("roller %v h vs ball %v h: exponent not applied", viaMiner, ballMiner)
 	}
 }
 
@@ -60,7 +115,7 @@ func TestReliabilityFactorISO281_2007(t *testing.T) {
 		}
 	}
 	// Lnm = a1 a_ISO L10 (ISO 281:2007): 99 % and a_ISO 2 -> 0.25 * 2 * 8000.
-	l, err := ModifiedLife(2000, 100, 99, 2)
+	l, err := ModifiedLife(Ball, 2000, 100, 99, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -100,17 +155,17 @@ func TestEquivalentLoadShigley(t *testing.T) {
 var refDuty = []DutyStep{{100, 8000, 0.5}, {150, 12000, 0.3}, {60, 5000, 0.2}}
 
 func TestDutyCycleMeanAndMinerAgree(t *testing.T) {
-	pm, nm, err := DutyCycleMean(refDuty)
+	pm, nm, err := DutyCycleMean(Ball, refDuty)
 	if err != nil {
 		t.Fatal(err)
 	}
 	near(t, "P_m", pm, 123.9219, 5e-5)
 	near(t, "n_m", nm, 8600, 1e-9)
-	viaMean, err := L10Hours(2000, pm, nm)
+	viaMean, err := L10Hours(Ball, 2000, pm, nm)
 	if err != nil {
 		t.Fatal(err)
 	}
-	viaMiner, err := MinerLifeHours(2000, refDuty)
+	viaMiner, err := MinerLifeHours(Ball, 2000, refDuty)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -122,7 +177,7 @@ func TestDutyCycleMeanAndMinerAgree(t *testing.T) {
 	// Miner 1945) over one hour: revolutions per step over L10 revolutions.
 	var used, life []float64
 	for _, s := range refDuty {
-		l, _ := L10(2000, s.LoadN)
+		l, _ := L10(Ball, 2000, s.LoadN)
 		used = append(used, s.RPM*60*s.TimeShare)
 		life = append(life, l*1e6)
 	}
@@ -135,7 +190,7 @@ func TestDutyCycleMeanAndMinerAgree(t *testing.T) {
 
 func TestDutyCycleRefusesBadSteps(t *testing.T) {
 	for _, s := range [][]DutyStep{nil, {{0, 100, 1}}, {{10, 100, 0}}, {{10, -1, 1}}} {
-		if _, _, err := DutyCycleMean(s); err == nil {
+		if _, _, err := DutyCycleMean(Ball, s); err == nil {
 			t.Errorf("%v: want error", s)
 		}
 	}

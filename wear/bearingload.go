@@ -42,15 +42,19 @@ type RatedInterval struct {
 // the axial load in a locating/floating arrangement), and the residual
 // unbalance force F = m e w^2 = m (G/1000) w is shared equally by the Count
 // bearings (Fr = F / Count). P follows the deep-groove equivalent-load rule;
-// the locating bearing, the most loaded, governs the motor's life.
+// the locating bearing, the most loaded, governs the motor's life. Type
+// sets the ISO 281 life exponent (3 ball, 10/3 roller) in both modes; the
+// equivalent-load rule stays the deep-groove one for a roller bearing too,
+// an approximation (its maker's X and Y apply).
 type BearingModel struct {
-	C_N               float64 // dynamic load rating of one bearing, N; 0 selects relative mode
-	C0_N              float64 // static load rating, N; 0 holds e, Y at the Fa/C0 = 0.056 row
-	Count             int     // bearings per motor; 0 means DefaultBearingCount
-	AISO              float64 // ISO 281 a_ISO life modification factor; 0 means 1
-	Reliability       float64 // percent, one of the a1 table's; 0 means 90
-	BalanceGrade_mm_s float64 // ISO 21940-11 grade G = e w, mm/s; 0 means DefaultBalanceGrade
-	RotorMassKg       float64 // rotating mass (bell and propeller), kg; 0 means no unbalance load
+	Type              BearingType // ball ("" too) or roller: the ISO 281 life exponent 3 or 10/3
+	C_N               float64     // dynamic load rating of one bearing, N; 0 selects relative mode
+	C0_N              float64     // static load rating, N; 0 holds e, Y at the Fa/C0 = 0.056 row
+	Count             int         // bearings per motor; 0 means DefaultBearingCount
+	AISO              float64     // ISO 281 a_ISO life modification factor; 0 means 1
+	Reliability       float64     // percent, one of the a1 table's; 0 means 90
+	BalanceGrade_mm_s float64     // ISO 21940-11 grade G = e w, mm/s; 0 means DefaultBalanceGrade
+	RotorMassKg       float64     // rotating mass (bell and propeller), kg; 0 means no unbalance load
 	Rated             RatedInterval
 }
 
@@ -106,6 +110,9 @@ func (m BearingModel) Validate() error {
 	if _, err := ReliabilityFactor(m.Reliability); err != nil {
 		return err
 	}
+	if _, err := m.Type.LifeExponent(); err != nil {
+		return err
+	}
 	if m.C_N == 0 {
 		r := m.Rated
 		if !(r.Hours > 0) || !(r.RPM > 0) || !(r.ThrustN > 0) || !finite(r.Hours+r.RPM+r.ThrustN) {
@@ -146,7 +153,7 @@ func (m BearingModel) Load(rpm, thrustN float64) (fr, fa, p float64, err error) 
 // Damage returns the Palmgren-Miner damage (fraction of bearing life) of a
 // load spectrum. Absolute: sum rev_i / (Lnm(P_i) 10^6). Relative: the rated
 // life in revolutions is L_ref = Hours 60 RPM at P_ref = P(Rated), and each
-// bin counts rev_i (P_i/P_ref)^3 / L_ref, so running Rated.Hours at the
+// bin counts rev_i (P_i/P_ref)^p / L_ref (p the life exponent), so running Rated.Hours at the
 // reference duty gives 1. a1 and a_ISO apply only in absolute mode (a rated
 // interval already embodies the operator's reliability and conditions).
 func (m BearingModel) Damage(bins []SpectrumBin) (float64, error) {
@@ -154,6 +161,7 @@ func (m BearingModel) Damage(bins []SpectrumBin) (float64, error) {
 		return 0, err
 	}
 	m = m.withDefaults()
+	exp, _ := m.Type.LifeExponent() // checked by Validate
 	var pRef, lRef float64
 	if m.C_N == 0 {
 		_, _, pr, err := m.Load(m.Rated.RPM, m.Rated.ThrustN)
@@ -178,13 +186,13 @@ func (m BearingModel) Damage(bins []SpectrumBin) (float64, error) {
 			continue // no load, no rolling-contact fatigue in this model
 		}
 		if m.C_N > 0 {
-			lnm, err := ModifiedLife(m.C_N, p, m.Reliability, m.AISO)
+			lnm, err := ModifiedLife(m.Type, m.C_N, p, m.Reliability, m.AISO)
 			if err != nil {
 				return 0, err
 			}
 			d += b.Revolutions / (lnm * 1e6)
 		} else {
-			d += b.Revolutions * math.Pow(p/pRef, BallLifeExponent) / lRef
+			d += b.Revolutions * math.Pow(p/pRef, exp) / lRef
 		}
 	}
 	return d, nil

@@ -43,6 +43,24 @@ func TestDamageMatchesDutyCycleExample(t *testing.T) {
 	m.Reliability, m.AISO = 99, 2
 	d2, _ := m.Damage(bins)
 	relNear(t, "a1 a_ISO scaling", d2, d*2, 1e-12)
+	// A roller bearing: the same spectrum by Palmgren-Miner with p = 10/3
+	// (ISO 281), as the duty-cycle route computes it.
+	roller := BearingModel{Type: Roller, C_N: 2000, C0_N: 100}
+	dr, err := roller.Damage(bins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, _ := MinerLifeHours(Roller, 2000, refDuty)
+	relNear(t, "roller hours to D = 1", 1/dr, want, 1e-12)
+	// And in relative mode the load ratio goes to the 10/3 power:
+	// (P_hard/P_gentle)^(10/3) with the hand values of TestLoadLifeRatio.
+	rel := BearingModel{Type: Roller, C0_N: 1000, Rated: RatedInterval{Hours: 300, RPM: 6000, ThrustN: 28}}
+	dg, _ := rel.Damage([]SpectrumBin{{RPM: 6000, Seconds: 600, Revolutions: 60000, ThrustN: 28}})
+	dh, _ := rel.Damage([]SpectrumBin{{RPM: 9000, Seconds: 400, Revolutions: 60000, ThrustN: 56}})
+	relNear(t, "relative roller hard/gentle", dh/dg, math.Pow(95.76/55.72, 10.0/3), 1e-12)
+	if err := (BearingModel{Type: "needle", C_N: 2000}).Validate(); err == nil {
+		t.Error("unknown bearing type accepted")
+	}
 }
 
 func TestLoadLifeRatio(t *testing.T) {

@@ -4,27 +4,28 @@
 // *fleet.Error (EINVALID for bad input, EUNPROCESSABLE when the data cannot
 // support the estimate).
 //
-// # Motor bearings (ISO 281, ball bearings)
+// # Motor bearings (ISO 281)
 //
-//   - L10(C, P) = (C/P)^3 in 10^6 revolutions; L10Hours(C, P, rpm) =
-//     10^6/(60 n) (C/P)^3; ReliabilityFactor(pct) is a1 of ISO 281:2007
+//   - L10(type, C, P) = (C/P)^p in 10^6 revolutions, p = 3 for Ball and
+//     10/3 for Roller bearings; L10Hours(type, C, P, rpm) =
+//     10^6/(60 n) (C/P)^p; ReliabilityFactor(pct) is a1 of ISO 281:2007
 //     (90, 95, 96, 97, 98, 99 % only; other values are refused);
 //     ModifiedLife = a1 a_ISO L10.
 //   - EquivalentLoad(Fr, Fa, C0): deep-groove rule P = Fr if Fa/Fr <= e,
 //     else 0.56 Fr + Y Fa, e and Y interpolated in Fa/C0 (Shigley Table
 //     11-1), clamped at the table's ends; DeepGrooveFactors gives e, Y.
-//   - DutyCycleMean(steps) gives P_m and n_m; MinerLifeHours(C, steps) the
+//   - DutyCycleMean(type, steps) gives P_m and n_m; MinerLifeHours(type, C, steps) the
 //     Palmgren-Miner life in hours; MinerDamage(used, life) = sum n_i/N_i.
-//   - BearingModel{C_N, C0_N, Count, AISO, Reliability, BalanceGrade_mm_s,
-//     RotorMassKg, Rated} is the per-motor setting. C_N > 0 selects the
+//   - BearingModel{Type, C_N, C0_N, Count, AISO, Reliability,
+//     BalanceGrade_mm_s, RotorMassKg, Rated} is the per-motor setting. C_N > 0 selects the
 //     absolute mode, else the relative mode with Rated{Hours, RPM, ThrustN}
 //     (the service rule's interval at a reference duty). Load per
 //     SpectrumBin{RPM, Seconds, Revolutions, ThrustN}: Fa = thrust on the
 //     locating bearing, Fr = m (G/1000) w / Count from residual unbalance
 //     (ISO 21940-11, default G 6.3). Damage(bins): absolute sums
-//     rev / (Lnm 10^6); relative sums rev (P/P_ref)^3 / (Hours 60 RPM), so
+//     rev / (Lnm 10^6); relative sums rev (P/P_ref)^p / (Hours 60 RPM), so
 //     Rated.Hours at the reference duty consumes 1. The motor spec's
-//     dynamic_rating_n is C_N; its life_factor fits AISO.
+//     bearing.type is Type, dynamic_rating_n C_N, life_factor AISO.
 //   - Status(flights []MotorFlight, now, window) returns BearingStatus:
 //     ConsumedFraction, RecentDamagePerHour (per run hour over the trailing
 //     window, default 30 days), RemainingEquivHours at that rate,
