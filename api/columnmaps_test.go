@@ -315,7 +315,7 @@ func TestUploadThroughColumnMap(t *testing.T) {
 		t.Fatalf("patch: %d %s", r.Status, r.Body)
 	}
 	ctx := store.WithActor(context.Background(), store.Actor{Name: "test"})
-	if n, err := (&ingest.Ingester{DB: e.db}).Reanalyze(ctx, nil); err != nil || n != 1 {
+	if n, err := (&ingest.Ingester{DB: e.db}).Reanalyze(ctx, true, nil); err != nil || n != 1 {
 		t.Fatalf("reanalyze: %d %v", n, err)
 	}
 	var after struct {

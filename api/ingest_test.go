@@ -295,3 +295,93 @@ func TestUploadDetectsHardLanding(t *testing.T) {
 		t.Fatalf("events %v (status %d), want one hard_landing", kinds, r.Status)
 	}
 }
+
+// A flight on two packs in parallel: GET /v1/flights/{id} returns each
+// pack's share (metrics.packs) and the per-cell minima (metrics.min_cells_v),
+// valid against the document. Equal shares by definition (one pack_a for
+// the bus): half the charge and energy each, the bus resistance times two.
+// Against the simulator's truth: two packs of the same age split the load
+// within their cell scatter (CellSpread 1 %), so each pack's charge is
+// within 3 % of the truth's split, and each pack's resistance within the
+// 10 % resistance acceptance of its own.
+func TestFlightReturnsPackFigures(t *testing.T) {
+	e := newEnv(t)
+	spec := sim.DefaultSpec(9)
+	spec.Start = time.Now().Add(-3 * time.Hour).UTC().Truncate(time.Second)
+	spec.DurationS, spec.Airframe = 240, "SIM-2P"
+	p := spec.Packs[0]
+	p.RatedMah = 4000
+	q := p
+	p.Serial, q.Serial = "SIM-2P-A", "SIM-2P-B"
+	spec.Packs = []sim.PackState{p, q}
+	a := e.create("/v1/airframes", map[string]any{"code": spec.Airframe, "layout": "quad-x", "cells_s": 4,
+		"packs_per_flight": 2, "rotor_diameter_mm": 254, "empty_mass_g": 1000})
+	var ids []string
+	for _, ps := range spec.Packs {
+		pk := e.create("/v1/parts", map[string]any{"kind": "pack", "serial": ps.Serial, "mass_g": 250,
+			"specs": map[string]any{"chemistry": "lipo", "cells_s": ps.CellsS, "cells_p": ps.CellsP, "rated_mah": ps.RatedMah, "c_rating": 25}})
+		ids = append(ids, pk.ID)
+	}
+	e.fitQuad(a, "T", "", time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC))
+	log, truth := genLog(t, spec)
+	r := e.upload(map[string]any{"pilot": "I. Brandt", "packs": ids, "site_elevation_m": spec.SiteElevationM,
+		"override_reason": "bench flight"}, log, pilot)
+	if r.Status != 201 {
+		t.Fatalf("upload: %d %s", r.Status, r.Body)
+	}
+	var created struct{ ID string }
+	r.decode(t, &created)
+	var d struct {
+		Metrics struct {
+			ChargeMah     float64   `json:"charge_mah"`
+			EnergyWh      float64   `json:"energy_wh"`
+			MinPackV      float64   `json:"min_pack_v"`
+			IRMohm        *float64  `json:"ir_mohm"`
+			MinCellsV     []float64 `json:"min_cells_v"`
+			MeanPowerW    float64   `json:"mean_power_w"`
+			LogMeanPowerW float64   `json:"log_mean_power_w"`
+			Packs         []struct {
+				PartID        string    `json:"part_id"`
+				Serial        string    `json:"serial"`
+				Slot          int       `json:"slot"`
+				Share         float64   `json:"share"`
+				ChargeMah     float64   `json:"charge_mah"`
+				EnergyWh      float64   `json:"energy_wh"`
+				MinCellV      *float64  `json:"min_cell_v"`
+				MinCellSource string    `json:"min_cell_source"`
+				MinCellsV     []float64 `json:"min_cells_v"`
+				IRmOhm        *float64  `json:"ir_mohm"`
+			} `json:"packs"`
+		} `json:"metrics"`
+	}
+	e.call("GET", "/v1/flights/"+created.ID, fleet.RoleViewer, nil).decode(t, &d)
+	m := d.Metrics
+	if len(m.MinCellsV) != 4 || len(m.Packs) != 2 || m.IRMohm == nil {
+		t.Fatalf("metrics: %d cell minima, %d packs, ir %v", len(m.MinCellsV), len(m.Packs), m.IRMohm)
+	}
+	for j, pk := range m.Packs {
+		t.Logf("pack %s: share %.2f, %.1f mAh (truth %.1f), %.2f Wh, min cell %.3f V (%s), %.1f mOhm (truth %.1f)",
+			pk.Serial, pk.Share, pk.ChargeMah, truth.Packs[j].ChargeMah, pk.EnergyWh, *pk.MinCellV, pk.MinCellSource,
+			*pk.IRmOhm, truth.Packs[j].IRmOhm)
+		if pk.PartID != ids[j] || pk.Serial != spec.Packs[j].Serial || pk.Slot != j+1 || pk.Share != 0.5 ||
+			pk.ChargeMah != m.ChargeMah/2 || pk.EnergyWh != m.EnergyWh/2 || *pk.IRmOhm != 2**m.IRMohm {
+			t.Errorf("pack %d figures %+v, bus charge %v energy %v ir %v", j, pk, m.ChargeMah, m.EnergyWh, *m.IRMohm)
+		}
+		if rel := pk.ChargeMah/truth.Packs[j].ChargeMah - 1; rel > 0.03 || rel < -0.03 {
+			t.Errorf("pack %d charge %.1f mAh, simulator's split %.1f", j, pk.ChargeMah, truth.Packs[j].ChargeMah)
+		}
+		if rel := *pk.IRmOhm/truth.Packs[j].IRmOhm - 1; rel > 0.10 || rel < -0.10 {
+			t.Errorf("pack %d resistance %.2f mOhm, simulator %.2f", j, *pk.IRmOhm, truth.Packs[j].IRmOhm)
+		}
+	}
+	// The cell columns are the first pack's; the second pack's minimum is
+	// the bus minimum over its 4 cells.
+	a0, a1 := m.Packs[0], m.Packs[1]
+	if a0.MinCellSource != "cells" || len(a0.MinCellsV) != 4 || a1.MinCellSource != "pack_v/cells_s" ||
+		*a1.MinCellV != m.MinPackV/4 || len(a1.MinCellsV) != 0 {
+		t.Errorf("pack cell minima: %+v / %+v", a0, a1)
+	}
+	if !(m.LogMeanPowerW < m.MeanPowerW) {
+		t.Errorf("mean power %v (airborne) vs %v (whole log)", m.MeanPowerW, m.LogMeanPowerW)
+	}
+}

@@ -20,8 +20,11 @@ import (
 )
 
 // AnalysisVersion numbers the analysis model; raise it when figures change
-// so that `rotorwright reanalyze` knows what is stale.
-const AnalysisVersion = 1
+// so that `rotorwright reanalyze` knows what is stale. 2: mean_power_w is
+// the airborne mean (log_mean_power_w the whole log's), vibration high-pass
+// from the sample rate with the rotor's resolvability, load spectra split
+// per interval, per-cell minima and per-pack figures in the metrics.
+const AnalysisVersion = 2
 
 // Ingester ingests logs into the store.
 type Ingester struct {
@@ -187,7 +190,7 @@ func (in *Ingester) analyse(log *telemetry.Log, f *fleet.Flight, facts *store.Fl
 		s := f.TakeoffAt.Add(-secs(*m.AirborneFromS))
 		start = &s
 	}
-	return toAnalysis(m, f, start)
+	return toAnalysis(m, f, facts, start)
 }
 
 // params are the facts about the flight the log does not carry.
@@ -232,12 +235,20 @@ func (in *Ingester) params(f *fleet.Flight, facts *store.FlightFacts) telemetry.
 	return p
 }
 
-func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, start *time.Time) (*store.Analysis, error) {
-	raw, err := json.Marshal(m)
+// figures is the stored metrics document: the analysis's figures and each
+// pack's share of them.
+type figures struct {
+	*telemetry.Metrics
+	Packs []store.PackFigures `json:"packs"`
+}
+
+func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, facts *store.FlightFacts, start *time.Time) (*store.Analysis, error) {
+	packs := packFigures(m, f, facts)
+	raw, err := json.Marshal(figures{Metrics: m, Packs: packs})
 	if err != nil {
 		return nil, err
 	}
-	a := &store.Analysis{Version: AnalysisVersion, Metrics: raw, Key: store.KeyMetrics{
+	a := &store.Analysis{Version: AnalysisVersion, Metrics: raw, Packs: packs, Key: store.KeyMetrics{
 		RunS: m.RunS, ChargeMah: m.ChargeMah, EnergyWh: m.EnergyWh, MeanPowerW: m.MeanPowerW, PeakA: m.PeakA,
 		MinPackV: m.MinPackV, MinCellV: m.MinCellV, RestVStart: m.RestVStart, RestVEnd: m.RestVEnd,
 		IRmOhm: m.IRMohm, HoverRPM: m.HoverRPM, ThrustK: m.ThrustK, EfficiencyIndex: m.EfficiencyIndex,
@@ -250,18 +261,6 @@ func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, start *time.Time) (*store
 		}
 		a.Motors = append(a.Motors, store.MotorRun{Position: r.Position, Revolutions: r.Revolutions, RunS: r.RunS,
 			MeanRPM: r.MeanRPM, ThrustMeanN: r.ThrustMeanN, Bins: bins})
-	}
-	// Packs flown together share pack_a in parallel: each carries 1/n of the
-	// charge and energy, and the combined resistance is each pack's over n.
-	n := float64(len(f.Packs))
-	for _, pk := range f.Packs {
-		pf := store.PackFigures{PartID: pk.PartID, ChargeMah: m.ChargeMah / n, EnergyWh: m.EnergyWh / n,
-			MinCellV: m.MinCellV, RestVStart: m.RestVStart, RestVEnd: m.RestVEnd}
-		if m.IRMohm != nil {
-			r := *m.IRMohm * n
-			pf.IRmOhm = &r
-		}
-		a.Packs = append(a.Packs, pf)
 	}
 	for _, e := range m.Events {
 		at := f.TakeoffAt
@@ -277,6 +276,38 @@ func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, start *time.Time) (*store
 	}
 	return a, nil
 }
+
+// packFigures shares the bus figures among the packs flown in parallel (see
+// store.PackFigures).
+func packFigures(m *telemetry.Metrics, f *fleet.Flight, facts *store.FlightFacts) []store.PackFigures {
+	n := float64(len(f.Packs))
+	out := make([]store.PackFigures, 0, len(f.Packs))
+	for j, pk := range f.Packs {
+		pf := store.PackFigures{PartID: pk.PartID, Slot: pk.Slot, Share: 1 / n, ChargeMah: m.ChargeMah / n,
+			EnergyWh: m.EnergyWh / n, RestVStart: m.RestVStart, RestVEnd: m.RestVEnd}
+		if j < len(facts.Packs) {
+			pf.Serial = facts.Packs[j].Serial
+		}
+		if pf.Slot == 0 {
+			pf.Slot = j + 1
+		}
+		if m.IRMohm != nil {
+			pf.IRmOhm = ptr(*m.IRMohm * n)
+		}
+		switch {
+		case j == 0 && m.MinCellSource == "cells":
+			pf.MinCellV, pf.MinCellSource, pf.MinCellsV = m.MinCellV, "cells", m.MinCellsV
+		case j < len(facts.Packs):
+			if s, err := fleet.PackSpecsOf(facts.Packs[j]); err == nil && s.CellsS > 0 {
+				pf.MinCellV, pf.MinCellSource = ptr(m.MinPackV/float64(s.CellsS)), "pack_v/cells_s"
+			}
+		}
+		out = append(out, pf)
+	}
+	return out
+}
+
+func ptr(v float64) *float64 { return &v }
 
 func vibrationTotal(v *telemetry.Vibration) *float64 {
 	if v == nil {
@@ -333,12 +364,17 @@ func Decompress(gz []byte) ([]byte, error) {
 	return io.ReadAll(r)
 }
 
-// Reanalyze recomputes every stored log's figures with the current model.
-// progress, when set, is told the count done after each page.
-func (in *Ingester) Reanalyze(ctx context.Context, progress func(done int)) (int, error) {
+// Reanalyze recomputes stored logs' figures with the current model: those
+// analysed with an older model (AnalysisVersion), or every one when all is
+// set. progress, when set, is told the count done after each page.
+func (in *Ingester) Reanalyze(ctx context.Context, all bool, progress func(done int)) (int, error) {
+	below := AnalysisVersion
+	if all {
+		below = 0
+	}
 	done, after := 0, ""
 	for {
-		logs, err := in.DB.StoredLogs(ctx, after, 100)
+		logs, err := in.DB.StoredLogs(ctx, after, below, 100)
 		if err != nil {
 			return done, err
 		}

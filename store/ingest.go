@@ -65,11 +65,26 @@ type MotorRun struct {
 	Bins        json.RawMessage `json:"bins"`
 }
 
-// PackFigures are one pack's share of a logged flight.
+// PackFigures are one pack's share of a logged flight. Packs listed
+// together feed pack_a in parallel and are taken to share the load equally
+// (Share = 1/n): charge and energy are the bus figures over n, resistance the
+// bus resistance times n; the rest voltages are the bus's. Only the first
+// pack's minimum cell voltage can come from cell columns (they belong to
+// it); another pack's is the bus minimum over its cells in series, a mean
+// cell, as MinCellSource says.
 type PackFigures struct {
-	PartID                                 string
-	ChargeMah, EnergyWh                    float64
-	MinCellV, RestVStart, RestVEnd, IRmOhm *float64
+	PartID        string    `json:"part_id"`
+	Serial        string    `json:"serial"`
+	Slot          int       `json:"slot"`
+	Share         float64   `json:"share"`
+	ChargeMah     float64   `json:"charge_mah"`
+	EnergyWh      float64   `json:"energy_wh"`
+	MinCellV      *float64  `json:"min_cell_v"`
+	MinCellSource string    `json:"min_cell_source,omitempty"`
+	MinCellsV     []float64 `json:"min_cells_v,omitempty"`
+	RestVStart    *float64  `json:"rest_v_start"`
+	RestVEnd      *float64  `json:"rest_v_end"`
+	IRmOhm        *float64  `json:"ir_mohm"`
 }
 
 // Analysis is everything computed from one log.
@@ -240,8 +255,9 @@ type StoredLog struct {
 	ColumnMap *fleet.ColumnMap
 }
 
-// StoredLogs returns up to limit stored logs after the flight id (keyset).
-func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]StoredLog, error) {
+// StoredLogs returns up to limit stored logs after the flight id (keyset);
+// with below > 0 only those analysed with a model version below it.
+func (db *DB) StoredLogs(ctx context.Context, afterID string, below, limit int) ([]StoredLog, error) {
 	var after *string
 	if afterID != "" {
 		after = &afterID
@@ -251,7 +267,8 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]Stor
 			v.map_id, v.name, v.version, v.body, v.saved_at
 		FROM flight_logs l JOIN flights f ON f.id = l.flight_id
 		LEFT JOIN column_map_versions v ON v.map_id = l.column_map_id AND v.version = l.column_map_version
-		WHERE ($1::uuid IS NULL OR l.flight_id > $1) ORDER BY l.flight_id LIMIT $2`, after, limit)
+		WHERE ($1::uuid IS NULL OR l.flight_id > $1) AND ($2 = 0 OR l.analysis_version < $2)
+		ORDER BY l.flight_id LIMIT $3`, after, below, limit)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -292,6 +309,14 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, limit int) ([]Stor
 		out[i].Flight.Packs = packs[out[i].Flight.ID]
 	}
 	return out, nil
+}
+
+// StaleLogs counts the stored logs analysed with a model version below
+// version.
+func (db *DB) StaleLogs(ctx context.Context, version int) (int, error) {
+	var n int
+	err := db.pool.QueryRow(ctx, `SELECT count(*) FROM flight_logs WHERE analysis_version < $1`, version).Scan(&n)
+	return n, translate(err)
 }
 
 // LogInfo describes a flight's stored log.

@@ -18,7 +18,7 @@ const (
 	DefaultRestCurrentA      = 1.0   // current at or below which the pack counts as at rest
 	DefaultEventSustainS     = 0.5   // how long a limit must be exceeded before an event opens
 	DefaultIRWindowS         = 0.2   // time between the two samples of a resistance step estimate
-	DefaultVibrationCutoffHz = 2.0   // high-pass corner separating vibration from manoeuvres and gravity
+	DefaultVibrationCutoffHz = 2.0   // high-pass corner separating vibration from manoeuvres and gravity, at most a tenth of the Nyquist frequency
 	DefaultLandingWindowS    = 5.0   // seconds before the end of the airborne span searched for touchdown
 	minIRSteps               = 5     // fewer step estimates than this give no resistance figure
 	irMinStepFraction        = 0.1   // current step that counts, as a fraction of the log's current range
@@ -54,7 +54,7 @@ type Params struct {
 	RestCurrentA      float64 // default DefaultRestCurrentA
 	EventSustainS     float64 // default DefaultEventSustainS
 	IRWindowS         float64 // default DefaultIRWindowS
-	VibrationCutoffHz float64 // default DefaultVibrationCutoffHz
+	VibrationCutoffHz float64 // default: chosen from the sample rate (vibrationCutoff)
 	LandingWindowS    float64 // default DefaultLandingWindowS
 }
 
@@ -97,7 +97,6 @@ func (p Params) withDefaults() Params {
 	def(&p.RestCurrentA, DefaultRestCurrentA)
 	def(&p.EventSustainS, DefaultEventSustainS)
 	def(&p.IRWindowS, DefaultIRWindowS)
-	def(&p.VibrationCutoffHz, DefaultVibrationCutoffHz)
 	def(&p.LandingWindowS, DefaultLandingWindowS)
 	return p
 }
@@ -115,15 +114,26 @@ type Metrics struct {
 	AirborneFromS *float64 `json:"airborne_from_s"`
 	AirborneToS   *float64 `json:"airborne_to_s"`
 
-	ChargeMah  float64 `json:"charge_mah"`
-	EnergyWh   float64 `json:"energy_wh"`
-	MeanPowerW float64 `json:"mean_power_w"` // over the whole log
-	PeakPowerW float64 `json:"peak_power_w"`
-	PeakA      float64 `json:"peak_a"`
-	MinPackV   float64 `json:"min_pack_v"`
+	ChargeMah float64 `json:"charge_mah"`
+	EnergyWh  float64 `json:"energy_wh"`
+	// MeanPowerW is the mean electrical power while airborne, as a
+	// technician means it; over the run span (rotors above idle) when there
+	// is no airborne span, over the whole log when there is neither (no rpm
+	// or throttle column). MeanPowerSource says which: "airborne", "run" or
+	// "log". LogMeanPowerW is the mean over the whole log, minutes at rest on
+	// the ground included.
+	MeanPowerW      float64 `json:"mean_power_w"`
+	MeanPowerSource string  `json:"mean_power_source"`
+	LogMeanPowerW   float64 `json:"log_mean_power_w"`
+	PeakPowerW      float64 `json:"peak_power_w"`
+	PeakA           float64 `json:"peak_a"`
+	MinPackV        float64 `json:"min_pack_v"`
 	// MinCellV is from cell columns, else pack_v / cells_s (MinCellSource says which).
 	MinCellV      *float64 `json:"min_cell_v"`
 	MinCellSource string   `json:"min_cell_source,omitempty"`
+	// MinCellsV is the minimum of each cell column (cell_1_v first); empty
+	// without cell columns.
+	MinCellsV []float64 `json:"min_cells_v"`
 	// RestVStart is the median pack voltage at or below RestCurrentA before the
 	// first load; RestVEnd the median over the later half of the final rest.
 	RestVStart *float64 `json:"rest_v_start"`
@@ -161,14 +171,28 @@ type Metrics struct {
 
 // Vibration is the RMS of high-passed body acceleration (m/s^2) over the
 // airborne span, per axis present, with the dominant vibration frequency.
+// The high-pass corner is chosen from the sample rate; the rotor's own
+// vibration is resolvable only when the rotor frequency is below half the
+// sample rate, and otherwise the figures are broadband (Caveat says so).
 type Vibration struct {
-	X      *float64 `json:"x"`
-	Y      *float64 `json:"y"`
-	Z      *float64 `json:"z"`
-	PeakHz *float64 `json:"peak_hz"` // strongest spectral line of the z axis above the cut-off
-	// RotorHz is hover_rpm / 60, to compare with PeakHz (alias it first if
-	// the log's Nyquist frequency is below it).
-	RotorHz *float64 `json:"rotor_hz"`
+	X *float64 `json:"x"`
+	Y *float64 `json:"y"`
+	Z *float64 `json:"z"`
+	// PeakHz is the strongest spectral line of the axes above the cut-off;
+	// null when the rotor vibration is not resolvable (the line would be an
+	// alias).
+	PeakHz  *float64 `json:"peak_hz"`
+	RotorHz *float64 `json:"rotor_hz"` // hover_rpm / 60
+	// SampleHz is the mean sample rate over the span; CutoffHz the
+	// high-pass corner: Params.VibrationCutoffHz, else
+	// DefaultVibrationCutoffHz but at most a tenth of SampleHz / 2, so a slow
+	// log keeps nine tenths of its band.
+	SampleHz float64 `json:"sample_hz"`
+	CutoffHz float64 `json:"cutoff_hz"`
+	// RotorResolvable is whether RotorHz is below SampleHz / 2; null when no
+	// rpm gives the rotor frequency.
+	RotorResolvable *bool  `json:"rotor_resolvable"`
+	Caveat          string `json:"caveat,omitempty"`
 }
 
 // Event is a condition detected in the log that ingest records.
@@ -183,12 +207,14 @@ type Event struct {
 
 // analysis carries what several figures share.
 type analysis struct {
-	l       *Log
-	p       Params
-	m       *Metrics
-	lo, hi  int // airborne span sample indices, lo = -1 if unknown
-	meanRPM []float64
-	idleRPM float64
+	l              *Log
+	p              Params
+	m              *Metrics
+	lo, hi         int  // airborne span sample indices, lo = -1 if unknown
+	runLo, runHi   int  // first and last sample above idle, runLo = -1 if none
+	cutoffExplicit bool // Params.VibrationCutoffHz was given
+	meanRPM        []float64
+	idleRPM        float64
 }
 
 // Analyze computes the figures of one flight from a parsed log. It is pure.
@@ -199,11 +225,13 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 	if err := p.validate(); err != nil {
 		return nil, err
 	}
-	a := &analysis{l: l, p: p.withDefaults(), m: &Metrics{Samples: l.Rows}, lo: -1}
+	a := &analysis{l: l, p: p.withDefaults(), m: &Metrics{Samples: l.Rows}, lo: -1, runLo: -1,
+		cutoffExplicit: p.VibrationCutoffHz > 0}
 	m := a.m
 	m.LogS = l.T[l.Rows-1] - l.T[0]
 	a.activity()
 	a.electrical()
+	a.meanPower()
 	a.resistance()
 	a.air()
 	a.rotors()
@@ -224,6 +252,9 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 	}
 	if m.Notes == nil {
 		m.Notes = []string{}
+	}
+	if m.MinCellsV == nil {
+		m.MinCellsV = []float64{}
 	}
 	return m, nil
 }
@@ -271,6 +302,7 @@ func (a *analysis) activity() {
 			}
 		}
 		m.RunS = ptr(Trapezoid(l.T, on))
+		a.runLo, a.runHi = first, last
 		if first >= 0 && a.p.Airborne == nil {
 			a.lo, a.hi = liftSpan(level, first, last)
 		}
@@ -419,6 +451,9 @@ func (a *analysis) finite() error {
 		}
 	}
 	dropped := false
+	if v := m.Vibration; v != nil && !(isFinite(v.SampleHz) && isFinite(v.CutoffHz)) {
+		m.Vibration, dropped = nil, true
+	}
 	for _, p := range opt {
 		if *p != nil && !isFinite(**p) {
 			*p, dropped = nil, true
@@ -427,7 +462,8 @@ func (a *analysis) finite() error {
 	if dropped {
 		a.note("some figures came out non-finite on this degenerate log and are left null")
 	}
-	req := []float64{m.LogS, m.ChargeMah, m.EnergyWh, m.MeanPowerW, m.PeakPowerW, m.PeakA, m.MinPackV, m.AirDensity}
+	req := []float64{m.LogS, m.ChargeMah, m.EnergyWh, m.MeanPowerW, m.LogMeanPowerW, m.PeakPowerW, m.PeakA, m.MinPackV, m.AirDensity}
+	req = append(req, m.MinCellsV...)
 	for _, mr := range m.Motors {
 		req = append(req, mr.Revolutions, mr.RunS)
 		for _, b := range mr.Bins {

@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -40,6 +41,19 @@ func TestThrottleOnlyLog(t *testing.T) {
 	near(t, "min_cell_v", m.MinCellV, 15.98/4, 1e-12, "pack_v / cells_s")
 	near(t, "rest_v_start", m.RestVStart, 16.795, 1e-12, "median of the two rest samples")
 	near(t, "rest_v_end", m.RestVEnd, 16.45, 1e-12, "later half of the final rest")
+	// Power: the airborne mean (t = 2..5 s) is the trapezoid of V I, 193.2,
+	// 224.28, 232, 223.72 W, over 3 s = 664.74 / 3 W; the whole-log mean,
+	// rest included, 899.7475 / 7 W (hand sums).
+	near(t, "mean_power_w", &m.MeanPowerW, 664.74/3, 1e-9, "hand sum, airborne")
+	near(t, "log_mean_power_w", &m.LogMeanPowerW, 899.7475/7, 1e-9, "hand sum, whole log")
+	if m.MeanPowerSource != "airborne" {
+		t.Errorf("mean power source %q", m.MeanPowerSource)
+	}
+	// Without rpm or throttle there is no span: the whole log, said so.
+	req, _ := Analyze(parseFile(t, "required_only.csv"), Params{})
+	if req.MeanPowerSource != "log" || req.MeanPowerW != req.LogMeanPowerW {
+		t.Errorf("required-only log: mean power %v (%s), log mean %v", req.MeanPowerW, req.MeanPowerSource, req.LogMeanPowerW)
+	}
 	if m.AirbornePowerW == nil {
 		t.Errorf("airborne power missing: the throttle gives the airborne span")
 	}
@@ -103,6 +117,7 @@ type flight struct {
 	current      func(t float64) float64           // aloft; default 10 A
 	cellDip      [2]float64                        // cell 3 at 2.9 V over this interval
 	landingSpike float64                           // |acc| in g at 54.5 s
+	dt           float64                           // sample step; 0 means fDt (50 Hz)
 }
 
 const (
@@ -119,9 +134,13 @@ func (f flight) csv() string {
 		b.WriteString(",lat,lon")
 	}
 	b.WriteString("\n")
-	n := int(math.Round(fEnd / fDt))
+	dt := fDt
+	if f.dt > 0 {
+		dt = f.dt
+	}
+	n := int(math.Round(fEnd / dt))
 	for k := 0; k <= n; k++ {
-		t := float64(k) * fDt
+		t := float64(k) * dt
 		aloft := t >= fUp-1e-9 && t <= fDown+1e-9
 		v, c := 25.2, 0.5
 		rpm := [4]float64{}
@@ -185,8 +204,21 @@ func TestSyntheticHover(t *testing.T) {
 			t.Errorf("%s revolutions %v, want %v", mr.Position, mr.Revolutions, want)
 		}
 		near(t, mr.Position+" mean_rpm", mr.MeanRPM, r, 1e-9, "constant rpm")
-		if len(mr.Bins) != 1 || mr.Bins[0].RPMLo != math.Floor(r/1000)*1000 ||
-			math.Abs(mr.Bins[0].Revolutions-mr.Revolutions) > 1e-9 {
+		// Load spectrum: the hover's 49 s in the rpm's bin, plus its share of
+		// the two 0.02 s ramps (rpm linear between samples); the ramps cross
+		// every lower bin in 0.02 x 1000/r s each way (computed).
+		var revs float64
+		for _, b := range mr.Bins {
+			revs += b.Revolutions
+			want := 2 * fDt * 1000 / r
+			if b.RPMLo == math.Floor(r/1000)*1000 {
+				want = fDown - fUp + 2*fDt*(r-b.RPMLo)/r
+			}
+			if math.Abs(b.Seconds-want) > 1e-9 {
+				t.Errorf("%s bin %v-%v: %v s, want %v", mr.Position, b.RPMLo, b.RPMHi, b.Seconds, want)
+			}
+		}
+		if len(mr.Bins) != int(r/1000)+1 || math.Abs(revs-mr.Revolutions) > 1e-9 {
 			t.Errorf("%s bins %+v", mr.Position, mr.Bins)
 		}
 		thrust += *mr.ThrustMeanN
@@ -224,26 +256,57 @@ func TestSyntheticHover(t *testing.T) {
 }
 
 func TestVibration(t *testing.T) {
-	// A 20 Hz tone of amplitude A has RMS A / sqrt(2) (definition of RMS). The
-	// 2 Hz bilinear high-pass at 50 Hz sampling maps 20 Hz to 49 Hz analog and
-	// passes it at |H|^2 = 49^2/(49^2+2^2) = 0.998; it leaves 0.25 % of a
-	// 0.1 Hz, 2 m/s^2 manoeuvre and nothing of gravity.
-	f := flight{rpm: [4]float64{6000, 6000, 6000, 6000}, vib: func(t float64) (x, y, z float64) {
+	// A 20 Hz tone of amplitude A has RMS A / sqrt(2) (definition of RMS). At
+	// 50 Hz sampling the corner is min(2 Hz, 25 Hz / 10) = 2 Hz; its bilinear
+	// high-pass maps 20 Hz to 49 Hz analog and passes it at |H|^2 =
+	// 49^2/(49^2+2^2) = 0.998; it leaves 0.25 % of a 0.1 Hz, 2 m/s^2
+	// manoeuvre and nothing of gravity.
+	vib := func(t float64) (x, y, z float64) {
 		return math.Sin(2*math.Pi*20*t) + 2*math.Sin(2*math.Pi*0.1*t), 0, 0.5 * math.Sin(2*math.Pi*20*t+1)
-	}}
-	m, err := Analyze(parseString(t, f.csv()), Params{})
+	}
+	gain := 0.998
+	// Rotors at 1200 rpm turn at 20 Hz, below the 25 Hz Nyquist frequency:
+	// the tone is the rotor's, resolvable, and its frequency is reported.
+	m, err := Analyze(parseString(t, flight{rpm: [4]float64{1200, 1200, 1200, 1200}, vib: vib}.csv()), Params{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	v := m.Vibration
-	t.Logf("vibration x %s y %s z %s peak %s Hz", fmtPtr(v.X), fmtPtr(v.Y), fmtPtr(v.Z), fmtPtr(v.PeakHz))
-	gain := 0.998
+	t.Logf("vibration x %s y %s z %s peak %s Hz at %.4g Hz, cut-off %.3g Hz", fmtPtr(v.X), fmtPtr(v.Y), fmtPtr(v.Z), fmtPtr(v.PeakHz), v.SampleHz, v.CutoffHz)
 	near(t, "vibration x", v.X, gain/math.Sqrt2, 0.01, "RMS of a sine")
 	near(t, "vibration y", v.Y, 0, 1e-9, "no signal")
 	near(t, "vibration z", v.Z, 0.5*gain/math.Sqrt2, 0.005, "RMS of a sine")
 	// 2451 airborne samples give 2048-point Welch segments: bins of 50/2048 Hz.
 	near(t, "peak_hz", v.PeakHz, 20, 50.0/2048, "tone frequency, one FFT bin")
-	near(t, "rotor_hz", v.RotorHz, 100, 1e-9, "6000 rpm / 60")
+	near(t, "rotor_hz", v.RotorHz, 20, 1e-9, "1200 rpm / 60")
+	near(t, "sample_hz", &v.SampleHz, 50, 1e-9, "construction")
+	near(t, "cutoff_hz", &v.CutoffHz, 2, 0, "min(2, 25/10)")
+	if v.RotorResolvable == nil || !*v.RotorResolvable || v.Caveat != "" {
+		t.Errorf("20 Hz rotor at 50 Hz sampling: resolvable %v, caveat %q", v.RotorResolvable, v.Caveat)
+	}
+	// Rotors at 6000 rpm turn at 100 Hz, above the Nyquist frequency: the
+	// 20 Hz line can only be an alias or something else, so no peak is
+	// reported, the RMS is given as broadband with the caveat.
+	m, _ = Analyze(parseString(t, flight{rpm: [4]float64{6000, 6000, 6000, 6000}, vib: vib}.csv()), Params{})
+	v = m.Vibration
+	near(t, "broadband x", v.X, gain/math.Sqrt2, 0.01, "RMS of a sine")
+	if v.PeakHz != nil || v.RotorResolvable == nil || *v.RotorResolvable ||
+		!strings.HasPrefix(v.Caveat, "rotor vibration not resolvable at 50 Hz") || !slices.Contains(m.Notes, v.Caveat) {
+		t.Errorf("100 Hz rotor at 50 Hz sampling: peak %s, resolvable %v, caveat %q", fmtPtr(v.PeakHz), v.RotorResolvable, v.Caveat)
+	}
+	// A 10 Hz log: the corner follows the sample rate, min(2 Hz, 5 Hz / 10)
+	// = 0.5 Hz, so a 1.5 Hz vibration keeps its RMS: the bilinear map sends
+	// 1.5 Hz at 10 Hz sampling to (10/pi) tan(0.15 pi) = 1.622 Hz analog, and
+	// the forward-backward first-order high-pass passes 1.622^2 /
+	// (1.622^2 + 0.5^2) = 0.913 of the amplitude (computed). A fixed 2 Hz
+	// corner passed 1.622^2 / (1.622^2 + 2^2) = 0.397: most of the band gone.
+	slow := func(t float64) (x, y, z float64) { return math.Sin(2 * math.Pi * 1.5 * t), 0, 0 }
+	m, _ = Analyze(parseString(t, flight{rpm: [4]float64{1200, 1200, 1200, 1200}, vib: slow, dt: 0.1}.csv()), Params{})
+	near(t, "10 Hz cutoff_hz", &m.Vibration.CutoffHz, 0.5, 1e-9, "min(2, 5/10)")
+	near(t, "10 Hz vibration x", m.Vibration.X, 0.913/math.Sqrt2, 0.01, "RMS of a sine through the high-pass")
+	// An explicit corner is kept.
+	m, _ = Analyze(parseString(t, flight{rpm: [4]float64{1200, 1200, 1200, 1200}, vib: vib}.csv()), Params{VibrationCutoffHz: 5})
+	near(t, "explicit cutoff_hz", &m.Vibration.CutoffHz, 5, 0, "given")
 }
 
 func TestEvents(t *testing.T) {
@@ -289,6 +352,18 @@ func TestEvents(t *testing.T) {
 	}
 	if len(m.Events) != len(want) {
 		t.Errorf("events = %+v", m.Events)
+	}
+	// Per cell: cell 3 dips to 2.9 V, the others go no lower than the pack's
+	// 22.2 V / 6 aloft (construction).
+	if len(m.MinCellsV) != 6 {
+		t.Fatalf("min_cells_v %v", m.MinCellsV)
+	}
+	for i, v := range m.MinCellsV {
+		want := 22.2 / 6
+		if i == 2 {
+			want = 2.9
+		}
+		near(t, fmt.Sprintf("min cell %d", i+1), &v, want, 1e-4, "construction, 4 decimals in the log")
 	}
 	// A 0.1 s dip is shorter than the 0.5 s needed, and the 40 A sample alone
 	// never counted; with the landing limit raised no event remains.
@@ -337,7 +412,9 @@ func TestParamsAndSpans(t *testing.T) {
 				t.Errorf("bin width %v", b.RPMHi-b.RPMLo)
 			}
 		}
-		if math.Abs(revs-mr.Revolutions) > 1e-9 || math.Abs(secs-(fDown-fUp+fDt)) > 1e-9 {
+		// Turning time: from the last stopped sample to the first after the
+		// rotors stop, the rpm being linear between samples.
+		if math.Abs(revs-mr.Revolutions) > 1e-9 || math.Abs(secs-(fDown-fUp+2*fDt)) > 1e-9 {
 			t.Errorf("%s: bins hold %v rev %v s, motor %v rev", mr.Position, revs, secs, mr.Revolutions)
 		}
 		// m1 at 3000 rpm stays under the 3500 rpm idle threshold: no run time.

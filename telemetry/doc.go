@@ -71,11 +71,25 @@
 // # Figures
 //
 // Analyze integrates by the trapezoidal rule over the actual time steps and
-// returns Metrics: charge, energy, power, current, voltage extremes and rest
-// voltages, DC resistance from current steps, run time and the airborne span,
-// per-motor revolutions and load spectra, the thrust constant k (T = k rpm^2)
-// from mean thrust = weight aloft, a hover efficiency index against
-// momentum-theory ideal power, air density, height above take-off, vibration,
-// landing load, distance flown, and detected events. A figure whose inputs are
-// missing is null, never guessed; Metrics.Notes say what was left out and why.
+// returns Metrics: charge, energy, power, current, voltage extremes (per cell
+// too) and rest voltages, DC resistance from current steps, run time and the
+// airborne span, per-motor revolutions and load spectra, the thrust constant
+// k (T = k rpm^2) from mean thrust = weight aloft, a hover efficiency index
+// against momentum-theory ideal power, air density, height above take-off,
+// vibration, landing load, distance flown, and detected events. A figure
+// whose inputs are missing is null, never guessed; Metrics.Notes say what was
+// left out and why.
+//
+// Definitions a technician reads: mean_power_w is the mean while airborne
+// (over the run span when there is no airborne span, over the whole log
+// when there is neither; mean_power_source says which), log_mean_power_w
+// the mean over the whole log, rest on the ground included. A load
+// spectrum takes the rpm as linear between samples and splits each
+// interval across the bins it spans, so irregular sampling and gaps do not
+// move time between bins. Vibration is high-passed at a corner chosen from
+// the sample rate (2 Hz, at most a tenth of the Nyquist frequency); when
+// the rotor frequency (hover rpm / 60) is above half the sample rate the
+// rotor's vibration cannot be resolved: the figures are then broadband, no
+// spectral peak is given and the caveat says "rotor vibration not
+// resolvable at N Hz".
 package telemetry

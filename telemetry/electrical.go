@@ -21,8 +21,15 @@ func (a *analysis) electrical() {
 	// mAh = (1000/3600) * integral I dt; Wh = integral V I dt / 3600.
 	m.ChargeMah = Trapezoid(l.T, l.PackA) * 1000 / 3600
 	m.EnergyWh = Trapezoid(l.T, pw) / 3600
-	m.MeanPowerW = meanOver(l.T, pw, 0, l.Rows-1)
+	m.LogMeanPowerW = meanOver(l.T, pw, 0, l.Rows-1)
 
+	for _, c := range l.Cells {
+		lo := math.Inf(1)
+		for _, v := range c {
+			lo = min(lo, v)
+		}
+		m.MinCellsV = append(m.MinCellsV, lo)
+	}
 	if cv := a.cellVoltage(); cv != nil {
 		lo := math.Inf(1)
 		for _, v := range cv {
@@ -64,6 +71,24 @@ func (a *analysis) electrical() {
 	if m.RestVStart == nil || m.RestVEnd == nil {
 		a.note(fmt.Sprintf("log does not start and end at or below %g A: a rest voltage is missing", p.RestCurrentA))
 	}
+}
+
+// meanPower is the mean electrical power while airborne, else over the run
+// span, else over the whole log.
+func (a *analysis) meanPower() {
+	l, m := a.l, a.m
+	lo, hi, src := 0, l.Rows-1, "log"
+	switch {
+	case a.lo >= 0:
+		lo, hi, src = a.lo, a.hi, "airborne"
+	case a.runLo >= 0:
+		lo, hi, src = a.runLo, a.runHi, "run"
+	}
+	pw := make([]float64, hi-lo+1)
+	for i := range pw {
+		pw[i] = l.PackV[lo+i] * l.PackA[lo+i]
+	}
+	m.MeanPowerW, m.MeanPowerSource = meanOver(l.T[lo:hi+1], pw, 0, len(pw)-1), src
 }
 
 // cellVoltage is the lowest cell voltage at each sample, from cell columns,

@@ -1,6 +1,7 @@
 package telemetry
 
 import (
+	"fmt"
 	"math"
 
 	"gonum.org/v1/gonum/dsp/fourier"
@@ -55,24 +56,47 @@ func (a *analysis) vibration() {
 	lo, hi := a.span()
 	t := l.T[lo : hi+1]
 	v := &Vibration{}
-	axis := func(x []float64) (*float64, []float64) {
-		if x == nil {
-			return nil, nil
-		}
-		hp := highPass(t, x[lo:hi+1], p.VibrationCutoffHz)
-		return ptr(rms(t, hp)), hp
+	if len(t) > 1 {
+		v.SampleHz = float64(len(t)-1) / (t[len(t)-1] - t[0])
 	}
-	v.X, _ = axis(l.AccX)
-	v.Y, _ = axis(l.AccY)
-	var z []float64
-	v.Z, z = axis(l.AccZ)
-	if z != nil {
-		if f, ok := spectralPeak(t, z, p.VibrationCutoffHz); ok {
+	nyquist := v.SampleHz / 2
+	v.CutoffHz = p.VibrationCutoffHz
+	if !a.cutoffExplicit {
+		v.CutoffHz = min(DefaultVibrationCutoffHz, nyquist/10)
+	}
+	if !(v.CutoffHz > 0) {
+		a.note("fewer than two samples in the span: vibration is not computed")
+		return
+	}
+	var axes [][]float64
+	axis := func(x []float64) *float64 {
+		if x == nil {
+			return nil
+		}
+		hp := highPass(t, x[lo:hi+1], v.CutoffHz)
+		axes = append(axes, hp)
+		return ptr(rms(t, hp))
+	}
+	v.X, v.Y, v.Z = axis(l.AccX), axis(l.AccY), axis(l.AccZ)
+	band := fmt.Sprintf("%.3g to %.3g Hz", v.CutoffHz, nyquist)
+	if a.m.HoverRPM != nil {
+		v.RotorHz = ptr(*a.m.HoverRPM / 60)
+		ok := *v.RotorHz < nyquist
+		v.RotorResolvable = &ok
+		if !ok {
+			v.Caveat = fmt.Sprintf("rotor vibration not resolvable at %.3g Hz: the rotors turn at about %.3g Hz, above half the "+
+				"sample rate; the figures are broadband (%s) and may hold rotor vibration aliased into that band", v.SampleHz, *v.RotorHz, band)
+		}
+	} else {
+		v.Caveat = fmt.Sprintf("rotor frequency unknown (no rpm columns): the figures are broadband (%s)", band)
+	}
+	if v.RotorResolvable == nil || *v.RotorResolvable {
+		if f, ok := spectralPeak(t, axes, v.CutoffHz); ok {
 			v.PeakHz = ptr(f)
 		}
 	}
-	if a.m.HoverRPM != nil {
-		v.RotorHz = ptr(*a.m.HoverRPM / 60)
+	if v.Caveat != "" {
+		a.note(v.Caveat)
 	}
 	a.m.Vibration = v
 }
@@ -80,27 +104,18 @@ func (a *analysis) vibration() {
 // welchSegment is the longest FFT segment of the vibration spectrum.
 const welchSegment = 4096
 
-// spectralPeak resamples y onto a uniform grid at the mean sample rate (linear
-// interpolation), averages Hann-windowed power spectra of half-overlapping
-// power-of-two segments (Welch's method: a steadier peak than one long FFT,
-// and cheap) and returns the frequency of the strongest line above minHz.
-// Lines above the Nyquist frequency of the log are aliased into it, as usual.
-func spectralPeak(t, y []float64, minHz float64) (float64, bool) {
-	n := len(y)
-	if n < 16 {
+// spectralPeak resamples each series onto a uniform grid at the mean sample
+// rate (linear interpolation), averages Hann-windowed power spectra of
+// half-overlapping power-of-two segments (Welch's method: a steadier peak
+// than one long FFT, and cheap), sums them over the series and returns the
+// frequency of the strongest line above minHz. Lines above the Nyquist
+// frequency of the log are aliased into it, as usual.
+func spectralPeak(t []float64, series [][]float64, minHz float64) (float64, bool) {
+	n := len(t)
+	if n < 16 || len(series) == 0 {
 		return 0, false
 	}
 	dt := (t[n-1] - t[0]) / float64(n-1)
-	u := make([]float64, n)
-	j := 0
-	for i := range n {
-		ti := t[0] + float64(i)*dt
-		for j < n-2 && t[j+1] < ti {
-			j++
-		}
-		f := (ti - t[j]) / (t[j+1] - t[j])
-		u[i] = y[j] + f*(y[j+1]-y[j])
-	}
 	seg := 16
 	for seg*2 <= n && seg < welchSegment {
 		seg *= 2
@@ -112,14 +127,26 @@ func spectralPeak(t, y []float64, minHz float64) (float64, bool) {
 	fft := fourier.NewFFT(seg)
 	buf := make([]float64, seg)
 	power := make([]float64, seg/2+1)
+	u := make([]float64, n)
 	var c []complex128
-	for start := 0; start+seg <= n; start += seg / 2 {
-		for i := range buf {
-			buf[i] = u[start+i] * win[i]
+	for _, y := range series {
+		j := 0
+		for i := range n {
+			ti := t[0] + float64(i)*dt
+			for j < n-2 && t[j+1] < ti {
+				j++
+			}
+			f := (ti - t[j]) / (t[j+1] - t[j])
+			u[i] = y[j] + f*(y[j+1]-y[j])
 		}
-		c = fft.Coefficients(c, buf)
-		for k, v := range c {
-			power[k] += real(v)*real(v) + imag(v)*imag(v)
+		for start := 0; start+seg <= n; start += seg / 2 {
+			for i := range buf {
+				buf[i] = u[start+i] * win[i]
+			}
+			c = fft.Coefficients(c, buf)
+			for k, v := range c {
+				power[k] += real(v)*real(v) + imag(v)*imag(v)
+			}
 		}
 	}
 	best, bestK := 0.0, -1

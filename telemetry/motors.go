@@ -50,7 +50,7 @@ func (a *analysis) rotors() {
 				mr.ThrustMeanN = ptr(*m.ThrustK * onRPM2 / on)
 			}
 		}
-		bins, ok := spectrum(r.RPM, w, p.RPMBinWidth, m.ThrustK)
+		bins, ok := spectrum(l.T, r.RPM, p.RPMBinWidth, m.ThrustK)
 		if !ok {
 			a.note(fmt.Sprintf("rpm_%s needs more than %d bins of %g rpm: no load spectrum", r.Position, maxBins, p.RPMBinWidth))
 		}
@@ -98,9 +98,15 @@ func trapezoidWeights(t []float64) []float64 {
 	return w
 }
 
-// spectrum bins the turning samples by rpm with trapezoidal weights, so the
-// bins' revolutions add up to the motor's revolutions.
-func spectrum(rpm, w []float64, width float64, k *float64) ([]RPMBin, bool) {
+// spectrum is a motor's load spectrum: time, revolutions and mean thrust
+// per rpm bin while turning. Between two samples the rpm is taken to change
+// linearly (the trapezoidal rule's own assumption), and each interval is
+// split across the bins it spans in proportion to the time its rpm spends in
+// each, so a long gap across a bin edge is shared as the rpm crossed it (a
+// sample-weight rule would hand half the gap to each end's bin). Revolutions
+// per bin are the integral of rpm/60 over that time, so the bins add up to
+// the motor's revolutions exactly; thrust uses the integral of rpm^2.
+func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 	top := 0.0
 	for _, v := range rpm {
 		top = max(top, v)
@@ -110,14 +116,37 @@ func spectrum(rpm, w []float64, width float64, k *float64) ([]RPMBin, bool) {
 	}
 	n := int(top/width) + 1
 	secs, revs, sq := make([]float64, n), make([]float64, n), make([]float64, n)
-	for i, v := range rpm {
-		if v <= 0 {
-			continue
+	// add books dt seconds during which the rpm runs linearly from a to b
+	// (a <= b) into the bins: per bin the share of dt its part of [a, b]
+	// takes, with the integrals of rpm and rpm^2 over it.
+	add := func(dt, a, b float64) {
+		if b <= 0 {
+			return // stopped: not turning time
 		}
-		b := int(v / width)
-		secs[b] += w[i]
-		revs[b] += w[i] * v / 60
-		sq[b] += w[i] * v * v
+		if b == a {
+			i := min(int(a/width), n-1)
+			secs[i] += dt
+			revs[i] += dt * a / 60
+			sq[i] += dt * a * a
+			return
+		}
+		for i := max(0, int(a/width)); i < n && float64(i)*width < b; i++ {
+			lo, hi := max(a, float64(i)*width), min(b, float64(i+1)*width)
+			if hi <= lo {
+				continue
+			}
+			d := dt * (hi - lo) / (b - a)
+			secs[i] += d
+			revs[i] += d * (lo + hi) / 2 / 60
+			sq[i] += d * (lo*lo + lo*hi + hi*hi) / 3
+		}
+	}
+	for i := 1; i < len(rpm); i++ {
+		a, b := rpm[i-1], rpm[i]
+		if a > b {
+			a, b = b, a
+		}
+		add(t[i]-t[i-1], a, b)
 	}
 	out := []RPMBin{}
 	for b := range n {

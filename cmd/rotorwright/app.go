@@ -17,6 +17,7 @@ import (
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
+	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/pglocal"
 	"github.com/rotorwright/rotorwright/migrations"
 	"github.com/rotorwright/rotorwright/schedule"
@@ -173,8 +174,15 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 		return nil, err
 	}
 	if err := r.Register("nightly", cfg.Nightly, func(ctx context.Context, _ pgx.Tx) (map[string]int, error) {
+		// Logs analysed by an older model (after an upgrade) first, so the
+		// health and due list rest on figures of one definition.
+		in := &ingest.Ingester{DB: a.DB}
+		stale, err := in.Reanalyze(store.WithActor(ctx, store.Actor{Name: "nightly", Method: "JOB", Route: "nightly"}), false, nil)
+		if err != nil {
+			return map[string]int{"reanalysed": stale}, err
+		}
 		res, err := prog.RecomputeAll(ctx)
-		return map[string]int{"health_views": res.HealthViews, "due_items": res.DueItems}, err
+		return map[string]int{"reanalysed": stale, "health_views": res.HealthViews, "due_items": res.DueItems}, err
 	}); err != nil {
 		return nil, err
 	}
@@ -209,6 +217,12 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
+	if n, err := a.DB.StaleLogs(ctx, ingest.AnalysisVersion); err != nil {
+		return err
+	} else if n > 0 {
+		a.log.Warn("stored flight logs analysed with an older model: their figures are reanalysed by the nightly job, "+
+			"or now with `rotorwright reanalyze`", "logs", n, "analysis_version", ingest.AnalysisVersion)
+	}
 	prog := a.programme()
 	stopSchedule, err := a.startSchedule(ctx, prog)
 	if err != nil {

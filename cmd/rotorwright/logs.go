@@ -140,14 +140,21 @@ func reason(err error) string {
 }
 
 func (c *cli) reanalyzeCmd() *cobra.Command {
-	return c.tool(&cobra.Command{
+	var stale bool
+	cmd := &cobra.Command{
 		Use:   "reanalyze",
-		Short: "Recompute every stored log's figures with the current model, then health and the due list",
-	}, func(ctx context.Context, app *App, _ []string) error {
+		Short: "Recompute stored logs' figures with the current model, then health and the due list",
+		Long: `Recompute the figures of every stored log with the current model (each log
+records the analysis_version it was analysed with), or with --stale only of
+those analysed with an older one, then the health views and the due list that
+rest on them. The nightly job reanalyses the stale ones after an upgrade.`,
+	}
+	cmd.Flags().BoolVar(&stale, "stale", false, "only the logs analysed with an older model")
+	return c.tool(cmd, func(ctx context.Context, app *App, _ []string) error {
 		ctx = store.WithActor(ctx, store.Actor{Name: "reanalyze", Method: "CLI", Route: "reanalyze"})
 		start := time.Now()
 		in := &ingest.Ingester{DB: app.DB}
-		n, err := in.Reanalyze(ctx, func(done int) { fmt.Fprintf(app.errOut, "\rreanalysed %d logs", done) })
+		n, err := in.Reanalyze(ctx, !stale, func(done int) { fmt.Fprintf(app.errOut, "\rreanalysed %d logs", done) })
 		fmt.Fprintln(app.errOut)
 		if err != nil {
 			return err

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/ingest"
 	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/sim"
 	"github.com/rotorwright/rotorwright/store"
@@ -92,5 +93,31 @@ func TestImportAndReanalyze(t *testing.T) {
 	}
 	if math.Abs(got-want) > 1e-9 {
 		t.Fatalf("after reanalyze charge %v, want %v", got, want)
+	}
+
+	// A log analysed by an older model (as after an upgrade): --stale
+	// reanalyses it alone, to the current version and definitions (the
+	// airborne mean power and the whole-log mean beside it).
+	if _, err := db.Pool().Exec(ctx, `UPDATE flight_logs SET analysis_version = 1 WHERE flight_id = $1`, id); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.Pool().Exec(ctx, `UPDATE flight_metrics SET metrics = '{}' WHERE flight_id = $1`, id); err != nil {
+		t.Fatal(err)
+	}
+	if n, err := db.StaleLogs(ctx, ingest.AnalysisVersion); err != nil || n != 1 {
+		t.Fatalf("stale logs %d, %v", n, err)
+	}
+	out, errOut, code = runCLI(t, "reanalyze", "--stale", "--database-url", url)
+	if code != 0 || !strings.Contains(out, "reanalysed 1 stored logs") {
+		t.Fatalf("reanalyze --stale: exit %d\n%s\n%s", code, out, errOut)
+	}
+	var version int
+	var source string
+	if err := db.Pool().QueryRow(ctx, `SELECT l.analysis_version, m.metrics->>'mean_power_source' FROM flight_logs l
+		JOIN flight_metrics m USING (flight_id) WHERE flight_id = $1`, id).Scan(&version, &source); err != nil {
+		t.Fatal(err)
+	}
+	if version != ingest.AnalysisVersion || source != "airborne" {
+		t.Fatalf("after reanalyze --stale: version %d, mean power source %q", version, source)
 	}
 }
