@@ -113,7 +113,7 @@ func (s *Server) createFit(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	s.recomputeAirframe(c.Request.Context(), id)
+	s.afterRecord(c.Request.Context(), id, nil, f.FittedAt)
 	c.JSON(http.StatusCreated, f)
 }
 
@@ -148,7 +148,11 @@ func (s *Server) createRemoval(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	s.recomputeAirframe(c.Request.Context(), id)
+	from := time.Now()
+	if f.RemovedAt != nil {
+		from = *f.RemovedAt
+	}
+	s.afterRecord(c.Request.Context(), id, nil, from)
 	c.JSON(http.StatusCreated, f)
 }
 

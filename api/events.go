@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"net/http"
 	"strconv"
 	"time"
@@ -54,6 +55,7 @@ func (s *Server) createEvent(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	s.afterEvent(c.Request.Context(), out, out.At)
 	c.Header("Location", "/v1/events/"+out.ID)
 	writeOne(c, http.StatusCreated, out.Version, out)
 }
@@ -123,4 +125,18 @@ func (s *Server) patchEvent(c *gin.Context) {
 		return
 	}
 	writeOne(c, http.StatusOK, e.Version, e)
+}
+
+// afterEvent brings verdicts and due lists up to date after an event opened
+// or resolved at the moment from.
+func (s *Server) afterEvent(ctx context.Context, e *fleet.Event, from time.Time) {
+	var airframe string
+	if e.AirframeID != nil {
+		airframe = *e.AirframeID
+	}
+	var parts []string
+	if e.PartID != nil {
+		parts = append(parts, *e.PartID)
+	}
+	s.afterRecord(ctx, airframe, parts, from)
 }

@@ -59,7 +59,9 @@ func (in *flightInput) flight() (*fleet.Flight, error) {
 }
 
 // createFlight records a flight: JSON for a manual entry, or multipart with
-// a `flight` JSON part and a `log` CSV part for an uploaded log.
+// a `flight` JSON part and a `log` CSV part for an uploaded log. Readiness
+// never refuses a flight: it is recorded with its verdict as of take-off,
+// whose blockers come back as warnings (and open a flown_not_ready event).
 func (s *Server) createFlight(c *gin.Context) {
 	if strings.HasPrefix(c.ContentType(), "multipart/") {
 		s.uploadFlight(c)
@@ -75,24 +77,30 @@ func (s *Server) createFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	if f.AirframeID != "" {
-		if err := f.Validate(); err != nil {
-			s.fail(c, err)
-			return
-		}
-		if err := s.gate(c.Request.Context(), f); err != nil {
-			s.fail(c, err)
-			return
-		}
+	if err := f.Validate(); err != nil {
+		s.fail(c, err)
+		return
 	}
-	out, err := s.db.CreateFlight(c.Request.Context(), f)
+	ctx := c.Request.Context()
+	rd, err := s.prog.JudgeTakeoff(ctx, f)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
-	s.recomputeAirframe(c.Request.Context(), out.AirframeID)
+	f.SetVerdict(rd)
+	out, err := s.db.CreateFlight(ctx, f)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	s.afterFlight(ctx, out)
+	d, err := s.db.FlightDetail(ctx, out.ID)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
 	c.Header("Location", "/v1/flights/"+out.ID)
-	c.JSON(http.StatusCreated, store.NewFlightDetail(out))
+	c.JSON(http.StatusCreated, d)
 }
 
 // uploadInput is the `flight` part of an upload: everything optional that

@@ -98,7 +98,7 @@ func TestWalkthrough(t *testing.T) {
 	if err != nil || r.Status != 200 {
 		t.Fatalf("csv: %d %v", r.Status, err)
 	}
-	if len(rows) != 1+8+1 || rows[0][9] != "serial" || rows[9][7] != "pack" {
+	if len(rows) != 1+8+1 || rows[0][11] != "serial" || rows[9][9] != "pack" || rows[0][7] != "ready_at_takeoff" || rows[1][7] != "yes" {
 		t.Fatalf("csv rows %v", rows)
 	}
 	// The fitment now has every motor and propeller.

@@ -84,6 +84,7 @@ func (s *Server) createPackCheck(c *gin.Context) {
 	if _, err := s.health.Part(c.Request.Context(), id); err != nil {
 		s.log.Error("health refresh after pack check", "part", id, "err", err)
 	}
+	s.afterRecord(c.Request.Context(), "", []string{id}, out.At)
 	c.JSON(http.StatusCreated, out)
 }
 

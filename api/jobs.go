@@ -4,6 +4,7 @@ import (
 	"encoding/csv"
 	"net/http"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -88,15 +89,29 @@ func (s *Server) jobManifest(c *gin.Context) {
 	c.Status(http.StatusOK)
 	w := csv.NewWriter(c.Writer)
 	_ = w.Write([]string{"job", "flight_id", "airframe", "pilot", "takeoff_at", "landing_at", "hours",
-		"kind", "position", "serial", "part_number", "lot"})
+		"ready_at_takeoff", "takeoff_blockers", "kind", "position", "serial", "part_number", "lot"})
 	for _, f := range m.Flights {
+		// ready_at_takeoff: yes, no (flown not ready: the blockers' codes
+		// follow) or empty while not judged.
+		ready, blockers := "", []string{}
+		if rd := f.ReadinessAtTakeoff; rd != nil {
+			ready = map[bool]string{true: "yes", false: "no"}[rd.Ready]
+			for _, b := range rd.Blockers {
+				blockers = append(blockers, b.Code)
+			}
+		}
 		head := []string{m.Job.Code, f.FlightID, f.AirframeCode, f.Pilot, f.TakeoffAt.UTC().Format(time.RFC3339),
-			f.LandingAt.UTC().Format(time.RFC3339), strconv.FormatFloat(f.Hours, 'f', 4, 64)}
+			f.LandingAt.UTC().Format(time.RFC3339), strconv.FormatFloat(f.Hours, 'f', 4, 64), ready,
+			strings.Join(blockers, " ")}
 		for _, p := range f.Parts {
 			_ = w.Write(append(head[:len(head):len(head)], string(p.Kind), p.Position, p.Serial, p.PartNumber, p.Lot))
 		}
 		for _, p := range f.Packs {
 			_ = w.Write(append(head[:len(head):len(head)], "pack", "slot "+strconv.Itoa(p.Slot), p.Serial, p.PartNumber, p.Lot))
+		}
+		if len(f.Parts)+len(f.Packs) == 0 {
+			// A flight with no part on record still has its row.
+			_ = w.Write(append(head[:len(head):len(head)], "", "", "", "", ""))
 		}
 	}
 	w.Flush()

@@ -48,8 +48,6 @@ type Problem struct {
 	Line     int            `json:"line,omitempty"`
 	Column   string         `json:"column,omitempty"`
 	Errors   []ProblemError `json:"errors,omitempty"`
-	// Blockers say why an airframe may not fly (409 on a flight refused).
-	Blockers []fleet.ReadinessItem `json:"blockers,omitempty"`
 }
 
 // ProblemError locates one fault by JSON pointer (RFC 6901).
@@ -85,7 +83,7 @@ func (s *Server) fail(c *gin.Context, err error) {
 	}
 	var fe *fleet.Error
 	if errors.As(err, &fe) {
-		p.Field, p.Line, p.Column, p.Blockers = fe.Field, fe.Line, fe.Column, fe.Blockers
+		p.Field, p.Line, p.Column = fe.Field, fe.Line, fe.Column
 		if fe.RetryAfter > 0 {
 			c.Header("Retry-After", strconv.Itoa(int(math.Ceil(fe.RetryAfter.Seconds()))))
 		}

@@ -127,15 +127,30 @@ func (s *Server) createWorkRecord(c *gin.Context) {
 		}
 		w.Resolves = append(w.Resolves, id)
 	}
-	out, err := s.db.CreateWorkRecord(c.Request.Context(), w)
+	ctx := c.Request.Context()
+	out, err := s.db.CreateWorkRecord(ctx, w)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
+	// The record may be back-dated: flights since it were judged without it.
+	var parts []string
+	for _, p := range []*string{out.PartID, out.RemovedPartID, out.FittedPartID} {
+		if p != nil {
+			parts = append(parts, *p)
+		}
+	}
 	if out.AirframeID != nil {
-		s.recomputeAirframe(c.Request.Context(), *out.AirframeID)
+		s.afterRecord(ctx, *out.AirframeID, parts, out.At)
 	} else {
-		s.recomputeFleet(c.Request.Context())
+		s.afterRecord(ctx, "", parts, out.At)
+		s.recomputeFleet(ctx)
+	}
+	for _, id := range out.Resolves {
+		// An event it resolves was open until then on its own airframe or part.
+		if e, err := s.db.Event(ctx, id); err == nil && (e.AirframeID == nil || out.AirframeID == nil || *e.AirframeID != *out.AirframeID) {
+			s.afterEvent(ctx, e, out.At)
+		}
 	}
 	c.Header("Location", "/v1/work-records?id="+out.ID)
 	c.JSON(http.StatusCreated, out)
@@ -196,7 +211,9 @@ func (s *Server) listDue(c *gin.Context) {
 	writeList(c, items, "")
 }
 
-// readiness answers whether the airframe may fly now with the given packs.
+// readiness answers whether the airframe may fly now with the given packs
+// (from the due list), or with ?at= whether it was ready at that moment
+// (recomputed as of then).
 func (s *Server) readiness(c *gin.Context) {
 	id, err := pathID(c, "airframe")
 	if err != nil {
@@ -208,7 +225,17 @@ func (s *Server) readiness(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	rd, err := s.prog.Readiness(c.Request.Context(), id, packs)
+	at, err := queryTime(c, "at")
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
+	var rd *fleet.Readiness
+	if at == nil {
+		rd, err = s.prog.Readiness(c.Request.Context(), id, packs)
+	} else if err = fleet.CheckTime("at", *at, time.Now()); err == nil {
+		rd, err = s.prog.ReadinessAt(c.Request.Context(), id, packs, *at)
+	}
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -249,18 +276,25 @@ func (s *Server) partsForecast(c *gin.Context) {
 	c.JSON(http.StatusOK, f)
 }
 
-// gate refuses a flight for an airframe that is not ready unless it carries
-// an override reason (see schedule.Programme.Gate).
-func (s *Server) gate(ctx context.Context, f *fleet.Flight) error { return s.prog.Gate(ctx, f) }
-
-// recomputeAirframe keeps readiness current after a change; a failure is
-// logged and repaired by the scheduled recompute.
-func (s *Server) recomputeAirframe(ctx context.Context, airframeID string) {
-	if _, err := s.prog.RecomputeAirframe(ctx, airframeID, nil); err != nil {
-		s.log.Error("due recompute", "airframe", airframeID, "err", err)
+// afterFlight brings verdicts and due lists up to date after a new flight
+// (see schedule.Programme.AfterFlight); a failure is logged and repaired by
+// the next record reaching those flights and the scheduled recompute.
+func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight) {
+	if err := s.prog.AfterFlight(ctx, f); err != nil {
+		s.log.Error("after a flight", "flight", f.ID, "err", err)
 	}
 }
 
+// afterRecord does the same after a record taking effect at from on the
+// airframe and parts (see schedule.Programme.AfterRecord).
+func (s *Server) afterRecord(ctx context.Context, airframeID string, parts []string, from time.Time) {
+	if err := s.prog.AfterRecord(ctx, airframeID, parts, from); err != nil {
+		s.log.Error("after a record", "airframe", airframeID, "parts", parts, "err", err)
+	}
+}
+
+// recomputeFleet recomputes the whole due list after a programme change; a
+// failure is logged and repaired by the scheduled recompute.
 func (s *Server) recomputeFleet(ctx context.Context) {
 	if _, err := s.prog.RecomputeFleet(ctx); err != nil {
 		s.log.Error("due recompute", "err", err)

@@ -10,7 +10,8 @@ import (
 // The programme routes through the real router, validated against the
 // document: rule CRUD with validation, a replacement work record swapping a
 // part, the due list reacting at once, readiness, the flight gate with its
-// audited override, and the spares forecast.
+// flight recorded anyway with its verdict (never refused: regression for
+// the old 409 gate), the override reason kept, and the spares forecast.
 func TestProgrammeRoutes(t *testing.T) {
 	e := newEnv(t)
 	a := e.quad("PG-01")
@@ -41,8 +42,8 @@ func TestProgrammeRoutes(t *testing.T) {
 		} `json:"items"`
 	}
 	e.call("GET", "/v1/service-rules", fleet.RoleViewer, nil).decode(t, &rules)
-	if len(rules.Items) != 6 {
-		t.Fatalf("%d default rules, want 6", len(rules.Items))
+	if len(rules.Items) != 7 {
+		t.Fatalf("%d default rules, want 7", len(rules.Items))
 	}
 	// A strict rule: every motor is due after 2 flights, grounding.
 	rule := e.call("POST", "/v1/service-rules", admin, map[string]any{"name": "motor check every 2 flights",
@@ -82,17 +83,32 @@ func TestProgrammeRoutes(t *testing.T) {
 	if af.Status != "grounded" {
 		t.Fatalf("airframe status %q with overdue grounding items, want grounded", af.Status)
 	}
+	// A flight while grounded is recorded all the same, flagged: its
+	// verdict, the blockers as warnings and one flown_not_ready event.
+	type verdict struct {
+		ID                 string                  `json:"id"`
+		OverrideReason     *string                 `json:"override_reason"`
+		Warnings           []struct{ Code string } `json:"warnings"`
+		ReadinessAtTakeoff *struct {
+			Ready    bool                    `json:"ready"`
+			Blockers []struct{ Code string } `json:"blockers"`
+		} `json:"readiness_at_takeoff"`
+		Events []struct{ Kind, Detail string } `json:"events"`
+	}
 	r := flight(6, "")
-	if p := r.problem(t); r.Status != 409 || len(p.Blockers) != 4 {
-		t.Fatalf("flight while grounded: %d %+v", r.Status, p)
+	var grounded verdict
+	r.decode(t, &grounded)
+	if r.Status != 201 || grounded.ReadinessAtTakeoff == nil || grounded.ReadinessAtTakeoff.Ready ||
+		len(grounded.ReadinessAtTakeoff.Blockers) != 4 || len(grounded.Warnings) < 4 || grounded.Warnings[0].Code != "overdue_grounding_rule" {
+		t.Fatalf("flight while grounded: %d %s", r.Status, r.Body)
 	}
-	r = flight(6, "ferry to the workshop, approved by the maintenance lead")
-	var fl struct {
-		ID             string  `json:"id"`
-		OverrideReason *string `json:"override_reason"`
+	if len(grounded.Events) != 1 || grounded.Events[0].Kind != "flown_not_ready" {
+		t.Fatalf("flight while grounded: events %+v, want one flown_not_ready", grounded.Events)
 	}
+	r = flight(4, "ferry to the workshop, approved by the maintenance lead")
+	var fl verdict
 	r.decode(t, &fl)
-	if r.Status != 201 || fl.OverrideReason == nil {
+	if r.Status != 201 || fl.OverrideReason == nil || len(fl.Events) != 1 {
 		t.Fatalf("overridden flight: %d %s", r.Status, r.Body)
 	}
 	var audit struct {
@@ -113,8 +129,8 @@ func TestProgrammeRoutes(t *testing.T) {
 		} `json:"items"`
 	}
 	e.call("GET", "/v1/due?status=overdue&airframe="+a.ID, fleet.RoleViewer, nil).decode(t, &due)
-	if len(due.Items) != 4 {
-		t.Fatalf("%d overdue items, want the 4 motors", len(due.Items))
+	if len(due.Items) != 5 {
+		t.Fatalf("%d overdue items, want the 4 motors and the review of the flights flown not ready: %+v", len(due.Items), due.Items)
 	}
 	// Spares: four motor replacements expected, one spare in stock.
 	spare := e.motor("PG-SPARE", fleet.CCW, "")
@@ -162,8 +178,8 @@ func TestProgrammeRoutes(t *testing.T) {
 		}
 	}
 	e.call("GET", "/v1/due?status=overdue&airframe="+a.ID, fleet.RoleViewer, nil).decode(t, &due)
-	if len(due.Items) != 3 {
-		t.Fatalf("%d overdue after replacing one motor, want 3: %+v", len(due.Items), due.Items)
+	if len(due.Items) != 4 || due.Items[0].Subject != "PG-01" {
+		t.Fatalf("%d overdue after replacing one motor, want 3 motors and the review: %+v", len(due.Items), due.Items)
 	}
 	// Disable the strict rule: the airframe flies again.
 	cur := e.call("GET", "/v1/service-rules/"+rl.ID, fleet.RoleViewer, nil)
@@ -177,6 +193,31 @@ func TestProgrammeRoutes(t *testing.T) {
 	e.call("GET", "/v1/airframes/"+a.ID, fleet.RoleViewer, nil).decode(t, &af)
 	if af.Status != "active" {
 		t.Fatalf("airframe status %q after disabling the rule, want active", af.Status)
+	}
+	// The review: a technician's work record against the review rule
+	// resolves the two flown_not_ready events and clears the due item.
+	var evs struct {
+		Items []struct{ ID string } `json:"items"`
+	}
+	e.call("GET", "/v1/events?kind=flown_not_ready&open=true&airframe_id="+a.ID, fleet.RoleViewer, nil).decode(t, &evs)
+	if len(evs.Items) != 2 {
+		t.Fatalf("%d open flown_not_ready events, want 2", len(evs.Items))
+	}
+	var review string
+	e.call("GET", "/v1/service-rules", fleet.RoleViewer, nil).decode(t, &rules)
+	for _, r := range rules.Items {
+		if r.Name == "review of a flight flown not ready" {
+			review = r.ID
+		}
+	}
+	if r := e.call("POST", "/v1/work-records", tech, map[string]any{"action": "inspect", "rule_id": review,
+		"airframe_id": a.ID, "work": "reviewed both flights: motors past their check interval; checked, no defect",
+		"performed_by": "T. Okoye", "resolves": []string{evs.Items[0].ID, evs.Items[1].ID}}); r.Status != 201 {
+		t.Fatalf("review record: %d %s", r.Status, r.Body)
+	}
+	e.call("GET", "/v1/due?status=overdue&airframe="+a.ID, fleet.RoleViewer, nil).decode(t, &due)
+	if len(due.Items) != 0 {
+		t.Fatalf("overdue after the review: %+v", due.Items)
 	}
 	// A rule with work records cannot be deleted (disable it instead).
 	cur = e.call("GET", "/v1/service-rules/"+rl.ID, fleet.RoleViewer, nil)

@@ -150,15 +150,11 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
-	s.ingest = &ingest.Ingester{DB: db, Health: hs, Gate: s.gate,
+	s.ingest = &ingest.Ingester{DB: db, Health: hs, Judge: s.prog.JudgeTakeoff,
 		Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes},
 		After: func(ctx context.Context, f *fleet.Flight) error {
-			packs := make([]string, len(f.Packs))
-			for i, p := range f.Packs {
-				packs[i] = p.PartID
-			}
-			_, err := s.prog.RecomputeAirframe(ctx, f.AirframeID, packs)
-			return err
+			s.afterFlight(ctx, f)
+			return nil
 		}}
 	gin.SetMode(gin.ReleaseMode)
 	e := gin.New()

@@ -32,8 +32,6 @@ type Error struct {
 	// Line and Column locate a fault in an uploaded file (1-based line).
 	Line   int
 	Column string
-	// Blockers say why an airframe may not fly, when that is the refusal.
-	Blockers []ReadinessItem
 	// RetryAfter, when set, is how soon a retry may succeed (a key in use,
 	// a rate limit, a full queue).
 	RetryAfter time.Duration

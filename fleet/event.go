@@ -4,7 +4,7 @@ import "time"
 
 // Event kinds.
 var EventKinds = []string{"hard_landing", "crash", "prop_strike", "overdischarge",
-	"overcurrent", "pack_swelling", "overtemp", "firmware_change", "note"}
+	"overcurrent", "pack_swelling", "overtemp", "firmware_change", "note", EventFlownNotReady}
 
 // Event severities.
 var Severities = []string{"info", "warning", "critical"}
@@ -56,7 +56,7 @@ func (e *Event) Validate() error {
 // DefaultSeverity is the severity an event kind gets when none is given.
 func DefaultSeverity(kind string) string {
 	switch kind {
-	case "crash", "prop_strike", "pack_swelling", "hard_landing":
+	case "crash", "prop_strike", "pack_swelling", "hard_landing", EventFlownNotReady:
 		return "critical"
 	case "note", "firmware_change":
 		return "info"

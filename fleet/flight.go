@@ -1,6 +1,7 @@
 package fleet
 
 import (
+	"strings"
 	"time"
 )
 
@@ -29,7 +30,67 @@ type Flight struct {
 	// was not ready; it is kept with the flight and its audit row.
 	OverrideReason *string      `json:"override_reason"`
 	Packs          []FlightPack `json:"packs"`
-	CreatedAt      time.Time    `json:"created_at"`
+	// ReadinessAtTakeoff is the readiness verdict as of take-off (see
+	// TakeoffVerdict); nil until judged.
+	ReadinessAtTakeoff *Readiness `json:"readiness_at_takeoff"`
+	// Warnings are what the take-off judgement found: its blockers (a flight
+	// that happened is recorded all the same) and its warnings.
+	Warnings  []ReadinessItem `json:"warnings"`
+	CreatedAt time.Time       `json:"created_at"`
+}
+
+// SetVerdict keeps the take-off verdict and the warnings it gives.
+func (f *Flight) SetVerdict(rd *Readiness) {
+	f.ReadinessAtTakeoff, f.Warnings = rd, []ReadinessItem{}
+	if rd != nil {
+		f.Warnings = append(append(f.Warnings, rd.Blockers...), rd.Warnings...)
+	}
+}
+
+// EventFlownNotReady is the event kind that flags a flight which took off
+// while its airframe was not ready (our name). It names the blockers and is
+// resolved like other events, by a work record.
+const EventFlownNotReady = "flown_not_ready"
+
+// TakeoffVerdict turns a readiness answer as of a recorded flight's take-off
+// into the flight's verdict. A multirotor cannot take off with a rotor
+// missing, so on a flight that happened an empty position shows a gap in
+// the fit history (common when logs are back-filled from before the
+// register): it is a warning, not a blocker.
+func TakeoffVerdict(rd *Readiness) *Readiness {
+	out := *rd
+	out.Blockers, out.Warnings = []ReadinessItem{}, []ReadinessItem{}
+	for _, b := range rd.Blockers {
+		if b.Code == ReadyEmptyPosition {
+			b.Message += " in the register at take-off (the fit history has a gap)"
+			out.Warnings = append(out.Warnings, b)
+		} else {
+			out.Blockers = append(out.Blockers, b)
+		}
+	}
+	out.Warnings = append(out.Warnings, rd.Warnings...)
+	out.Ready = len(out.Blockers) == 0
+	return &out
+}
+
+// FlownNotReadyDetail is the detail of a flight's flown_not_ready event: the
+// blockers at take-off and the reason given for flying, if any.
+func FlownNotReadyDetail(rd *Readiness, overrideReason *string) string {
+	var b strings.Builder
+	b.WriteString("took off not ready: ")
+	for i, it := range rd.Blockers {
+		if i > 0 {
+			b.WriteString("; ")
+		}
+		b.WriteString(it.Message + " [" + it.Code + "]")
+	}
+	if overrideReason != nil {
+		b.WriteString(". Reason given for flying: " + *overrideReason)
+	}
+	if r := []rune(b.String()); len(r) > 4000 { // an event's detail limit
+		return string(r[:3996]) + " ..."
+	}
+	return b.String()
 }
 
 // FlightPack is a pack flown on a flight, in a numbered slot.

@@ -242,15 +242,20 @@ const (
 	ReadyAirframeRetired  = "airframe_retired"
 	ReadyDueSoon          = "due_soon"
 	ReadyOverdue          = "overdue"
+	// ReadyNoMotors warns that the register has no motor fitted at all:
+	// usually fit history that starts later than the flights.
+	ReadyNoMotors = "no_fitted_motors"
 )
 
-// Readiness is whether an airframe may fly, and why not.
+// Readiness is whether an airframe may fly (or might have flown at a past
+// moment), and why not.
 type Readiness struct {
 	AirframeID string          `json:"airframe_id"`
+	At         time.Time       `json:"at"` // the moment judged
 	Ready      bool            `json:"ready"`
 	Blockers   []ReadinessItem `json:"blockers"`
 	Warnings   []ReadinessItem `json:"warnings"`
-	CheckedAt  time.Time       `json:"checked_at"`
+	CheckedAt  time.Time       `json:"checked_at"` // when the judgement was made
 }
 
 // ETagVersion is the version an ETag names.

@@ -81,7 +81,7 @@ func (s *Service) Part(ctx context.Context, partID string) (*View, error) {
 	case fleet.KindMotor:
 		err = s.motor(ctx, p, now, v)
 	case fleet.KindPack:
-		err = s.pack(ctx, p, now, v)
+		err = s.pack(ctx, p, now, nil, v)
 	case fleet.KindPropeller:
 		err = s.propeller(ctx, p, now, v)
 	default:
@@ -92,6 +92,21 @@ func (s *Service) Part(ctx context.Context, partID string) (*View, error) {
 		return nil, err
 	}
 	return v, s.DB.SavePartHealth(ctx, p.ID, v.Status, v, now)
+}
+
+// PackAt computes a pack's health view as of the moment at from its flights,
+// checks and events before it, without storing it (readiness as of a past
+// moment).
+func (s *Service) PackAt(ctx context.Context, partID string, at time.Time) (*View, error) {
+	p, err := s.DB.Part(ctx, partID)
+	if err != nil {
+		return nil, err
+	}
+	v := &View{PartID: p.ID, Kind: p.Kind, Serial: p.Serial, ComputedAt: at, Notes: []string{}}
+	if p.Kind != fleet.KindPack {
+		return nil, fleet.Errorf(fleet.EUNPROCESSABLE, "%s is a %s, not a pack", p.Serial, p.Kind)
+	}
+	return v, s.pack(ctx, p, at, &at, v)
 }
 
 // Refresh recomputes the health of everything a flight touched: its motors,

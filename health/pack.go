@@ -82,7 +82,9 @@ type CyclePoint struct {
 // on: small spans magnify voltage-reading errors (wear's default).
 const minRestSpan = 0.3
 
-func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *View) error {
+// pack computes a pack's view at now; with until, from the flights, checks
+// and events before it only.
+func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until *time.Time, v *View) error {
 	specs, err := fleet.PackSpecsOf(p)
 	if err != nil {
 		return err
@@ -94,6 +96,10 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *Vie
 	checks, err := s.DB.PackChecks(ctx, p.ID)
 	if err != nil {
 		return err
+	}
+	if until != nil {
+		flights = before(flights, *until, func(f store.PackFlight) time.Time { return f.TakeoffAt })
+		checks = before(checks, *until, func(c store.PackCheck) time.Time { return c.At })
 	}
 	cells := float64(specs.CellsS)
 	pv := &PackView{Chemistry: specs.Chemistry, CellsS: specs.CellsS, RatedMah: specs.RatedMah, Flights: len(flights),
@@ -261,12 +267,9 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, v *Vie
 			break
 		}
 	}
-	open := true
-	swelling, _, err := s.DB.Events(ctx, store.EventFilter{PartID: p.ID, Kind: "pack_swelling", Open: &open}, store.Page{Limit: 1})
-	if err != nil {
+	if readings.Swollen, err = s.swollen(ctx, p.ID, until); err != nil {
 		return err
 	}
-	readings.Swollen = len(swelling) > 0
 	h := wear.PackStatus(readings, th)
 	v.Status, pv.Reasons = h.Status, h.Reasons
 	if pv.Reasons == nil {
@@ -339,4 +342,35 @@ func (s *Service) packLimits(ctx context.Context, p *fleet.Part) (packRuleLimits
 		out.ir = add(out.ir, r.IRRisePct)
 	}
 	return out, nil
+}
+
+// swollen reports an open swelling report on the pack (open at until, when
+// given).
+func (s *Service) swollen(ctx context.Context, partID string, until *time.Time) (bool, error) {
+	f := store.EventFilter{PartID: partID, Kind: "pack_swelling"}
+	if until == nil {
+		open := true
+		f.Open = &open
+	}
+	evs, _, err := s.DB.Events(ctx, f, store.Page{Limit: store.MaxPageSize})
+	if err != nil {
+		return false, err
+	}
+	for _, e := range evs {
+		if until == nil || store.OpenAt(e, *until) {
+			return true, nil
+		}
+	}
+	return false, nil
+}
+
+// before keeps the leading items of a time-ordered list that are earlier
+// than at.
+func before[T any](list []T, at time.Time, when func(T) time.Time) []T {
+	for i, x := range list {
+		if !when(x).Before(at) {
+			return list[:i]
+		}
+	}
+	return list
 }

@@ -32,11 +32,25 @@ type TrendView struct {
 
 // Airframe computes and stores an airframe's trends.
 func (s *Service) Airframe(ctx context.Context, airframeID string) (*TrendsView, error) {
-	pts, err := s.DB.AirframeTrendPoints(ctx, airframeID, s.Settings.TrendFlights)
+	now := s.Now().UTC()
+	tv, err := s.trends(ctx, airframeID, now, nil)
 	if err != nil {
 		return nil, err
 	}
-	now := s.Now().UTC()
+	return tv, s.DB.SaveAirframeTrends(ctx, airframeID, tv.Flagged, tv, now)
+}
+
+// AirframeAt computes an airframe's trends over its logged flights before
+// the moment at, without storing them (readiness as of a past moment).
+func (s *Service) AirframeAt(ctx context.Context, airframeID string, at time.Time) (*TrendsView, error) {
+	return s.trends(ctx, airframeID, at, &at)
+}
+
+func (s *Service) trends(ctx context.Context, airframeID string, now time.Time, before *time.Time) (*TrendsView, error) {
+	pts, err := s.DB.AirframeTrendPoints(ctx, airframeID, s.Settings.TrendFlights, before)
+	if err != nil {
+		return nil, err
+	}
 	tv := &TrendsView{AirframeID: airframeID, ComputedAt: now, Flights: len(pts), LimitPct: s.Settings.TrendLimitPct,
 		Series: pts}
 	if tv.Series == nil {
@@ -54,7 +68,7 @@ func (s *Service) Airframe(ctx context.Context, airframeID string) (*TrendsView,
 	tv.EfficiencyIndex = s.trend(eff)
 	tv.Vibration = s.trend(vib)
 	tv.Flagged = (tv.EfficiencyIndex != nil && tv.EfficiencyIndex.Flag) || (tv.Vibration != nil && tv.Vibration.Flag)
-	return tv, s.DB.SaveAirframeTrends(ctx, airframeID, tv.Flagged, tv, now)
+	return tv, nil
 }
 
 // minTrendFlights is the fewest flights a trend is fitted to (a robust slope

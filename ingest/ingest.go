@@ -32,8 +32,10 @@ type Ingester struct {
 	Limits telemetry.Limits
 	// Health, when set, refreshes the health of what a new flight touched.
 	Health *health.Service
-	// Gate, when set, may refuse a flight before it is written (readiness).
-	Gate func(ctx context.Context, f *fleet.Flight) error
+	// Judge, when set, gives a new flight its readiness verdict as of its
+	// take-off before it is written (it never refuses it; a flight without a
+	// verdict is judged later, see schedule.Programme.JudgeUnjudged).
+	Judge func(ctx context.Context, f *fleet.Flight) (*fleet.Readiness, error)
 	// After, when set, runs after a new flight is recorded and its health
 	// refreshed (the due-list recompute); its error does not undo the flight.
 	After func(ctx context.Context, f *fleet.Flight) error
@@ -62,6 +64,9 @@ type Result struct {
 	Unknown  []string // columns the parser ignored
 	// ColumnMap is the map the log was read through (nil: native layout).
 	ColumnMap *fleet.ColumnMap
+	// Verdict is the new flight's readiness as of take-off (nil when not
+	// judged, or when the flight was already recorded).
+	Verdict *fleet.Readiness
 	// HealthErr is a failed health refresh after the flight was recorded.
 	HealthErr error
 }
@@ -83,11 +88,6 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
 		return Result{}, err
 	}
-	if in.Gate != nil {
-		if err := in.Gate(ctx, &f); err != nil {
-			return Result{}, err
-		}
-	}
 	facts, err := in.DB.FlightFacts(ctx, f.AirframeID, packIDs(f.Packs))
 	if err != nil {
 		return Result{}, err
@@ -95,6 +95,16 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	a, err := in.analyse(log, &f, facts)
 	if err != nil {
 		return Result{}, err
+	}
+	if in.Judge != nil {
+		if err := f.Validate(); err != nil {
+			return Result{}, err
+		}
+		verdict, err := in.Judge(ctx, &f)
+		if err != nil {
+			return Result{}, err
+		}
+		f.SetVerdict(verdict)
 	}
 	f.Source, f.LogSHA256 = fleet.SourceLog, &sha
 	// The raw log is kept as uploaded: a gzip upload is stored as it came.
@@ -110,6 +120,9 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		return Result{}, err
 	}
 	res := Result{FlightID: id, Created: created, Unknown: log.Unknown, ColumnMap: rd.Map}
+	if created {
+		res.Verdict = f.ReadinessAtTakeoff
+	}
 	if created && in.Health != nil {
 		// The flight is recorded; a failed refresh is repaired by the next
 		// refresh or a fleet recompute, so it does not fail the upload.

@@ -65,86 +65,80 @@ func (db *DB) RuleSubjects(ctx context.Context, r *fleet.ServiceRule, airframeID
 	})
 }
 
-// LastDone returns when a work record against the rule last covered the
-// subject (nil if never). A record that a later one corrects no longer
-// counts: the correction stands in its place.
-func (db *DB) LastDone(ctx context.Context, ruleID string, s Subject) (*time.Time, error) {
-	var t *time.Time
-	err := db.pool.QueryRow(ctx, `
-		SELECT max(w.at) FROM work_records w
+// WorkDone returns when work records against the rule covered the subject,
+// oldest first. A record that a later one corrects no longer counts: the
+// correction stands in its place.
+func (db *DB) WorkDone(ctx context.Context, ruleID string, s Subject) ([]time.Time, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT w.at FROM work_records w
 		WHERE w.rule_id = $1 AND CASE WHEN $2 = 'airframe' THEN w.airframe_id = $3 ELSE w.part_id = $3 END
-		  AND NOT EXISTS (SELECT 1 FROM work_records c WHERE c.corrects_id = w.id)`,
-		ruleID, s.Kind, s.ID).Scan(&t)
-	return t, translate(err)
+		  AND NOT EXISTS (SELECT 1 FROM work_records c WHERE c.corrects_id = w.id)
+		ORDER BY w.at`, ruleID, s.Kind, s.ID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (time.Time, error) {
+		var t time.Time
+		return t, r.Scan(&t)
+	})
 }
 
-// Usage is what a subject went through from a moment on, and over the
-// trailing window for rates.
-type Usage struct {
-	Hours, Flights, Revolutions, Cycles                         float64
-	RecentHours, RecentFlights, RecentRevolutions, RecentCycles float64
+// Use is what one flight added to a subject: time in service, one cycle,
+// revolutions at its position (motors and propellers) and equivalent full
+// cycles (packs).
+type Use struct {
+	At                         time.Time // take-off
+	Hours, Revolutions, Cycles float64
 }
 
-// UsageSince sums the subject's flights (time in service and cycles),
-// revolutions at its position and pack equivalent full cycles since since,
-// and the same over [recentFrom, now). The recent sums are the subject's
-// utilisation whatever the rule's reset: they include flights before since.
-func (db *DB) UsageSince(ctx context.Context, s Subject, since, recentFrom time.Time) (Usage, error) {
-	var u Usage
+// Uses returns the subject's flights taking off from from on (before until
+// when given), oldest first: an airframe's own flights, a pack's flights,
+// or the flights a part was fitted for at take-off.
+func (db *DB) Uses(ctx context.Context, s Subject, from time.Time, until *time.Time) ([]Use, error) {
 	var q string
 	switch {
 	case s.Kind == "airframe":
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8, 0::float8
-			FROM flights fl WHERE fl.airframe_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
+			FROM flights fl WHERE fl.airframe_id = $1 AND fl.takeoff_at >= $2
+			  AND ($3::timestamptz IS NULL OR fl.takeoff_at < $3)`
 	case s.AirframeID == nil: // a pack
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8,
 				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), 0)
 			FROM flight_packs fp JOIN flights fl ON fl.id = fp.flight_id JOIN parts p ON p.id = fp.part_id
-			WHERE fp.part_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
+			WHERE fp.part_id = $1 AND fl.takeoff_at >= $2 AND ($3::timestamptz IS NULL OR fl.takeoff_at < $3)`
 	default:
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600,
 				coalesce((SELECT revolutions FROM motor_runs mr WHERE mr.flight_id = fl.id AND mr.position = f.position), 0),
 				0::float8
 			FROM fits f JOIN flights fl ON ` + fitAtTakeoff + `
-			WHERE f.part_id = $1 AND fl.takeoff_at >= least($2::timestamptz, $3::timestamptz)`
+			WHERE f.part_id = $1 AND fl.takeoff_at >= $2 AND ($3::timestamptz IS NULL OR fl.takeoff_at < $3)`
 	}
-	rows, err := db.pool.Query(ctx, q, s.ID, since, recentFrom)
+	rows, err := db.pool.Query(ctx, q+` ORDER BY 1`, s.ID, from, until)
 	if err != nil {
-		return u, translate(err)
+		return nil, translate(err)
 	}
-	defer rows.Close()
-	for rows.Next() {
-		var at time.Time
-		var h, rev, cyc float64
-		if err := rows.Scan(&at, &h, &rev, &cyc); err != nil {
-			return u, translate(err)
-		}
-		if !at.Before(since) {
-			u.Hours, u.Flights, u.Revolutions, u.Cycles = u.Hours+h, u.Flights+1, u.Revolutions+rev, u.Cycles+cyc
-		}
-		if !at.Before(recentFrom) {
-			u.RecentHours, u.RecentFlights = u.RecentHours+h, u.RecentFlights+1
-			u.RecentRevolutions, u.RecentCycles = u.RecentRevolutions+rev, u.RecentCycles+cyc
-		}
-	}
-	return u, translate(rows.Err())
+	return collect(rows, func(r pgx.Row) (Use, error) {
+		var u Use
+		return u, r.Scan(&u.At, &u.Hours, &u.Revolutions, &u.Cycles)
+	})
 }
 
-// OpenEvent returns the earliest unresolved event of the kinds on the
-// subject (for an airframe, on it; for a part, naming it) from since on.
-func (db *DB) OpenEvent(ctx context.Context, kinds []string, s Subject, since time.Time) (*fleet.Event, error) {
+// SubjectEvents returns the events of the kinds on the subject (for an
+// airframe, on it; for a part, naming it) from the moment from on, resolved
+// or not, oldest first.
+func (db *DB) SubjectEvents(ctx context.Context, kinds []string, s Subject, from time.Time) ([]*fleet.Event, error) {
 	if len(kinds) == 0 {
 		return nil, nil
 	}
-	e, err := scanEvent(db.pool.QueryRow(ctx, `
+	rows, err := db.pool.Query(ctx, `
 		SELECT `+eventCols+` FROM events
-		WHERE kind = ANY($1) AND resolved_at IS NULL AND at >= $3
+		WHERE kind = ANY($1) AND at >= $3
 		  AND CASE WHEN $2 = 'airframe' THEN airframe_id = $4 ELSE part_id = $4 END
-		ORDER BY at LIMIT 1`, kinds, s.Kind, since, s.ID))
-	if err == pgx.ErrNoRows {
-		return nil, nil
+		ORDER BY at`, kinds, s.Kind, from, s.ID)
+	if err != nil {
+		return nil, translate(err)
 	}
-	return e, translate(err)
+	return collect(rows, scanEvent)
 }
 
 // DueChange is called for each item whose status changed, inside the
@@ -317,7 +311,7 @@ func (db *DB) ReadinessFacts(ctx context.Context, airframeID string, at time.Tim
 	for i, r := range rf.Rotors {
 		parts[i] = fleet.FittedPart{Kind: r.Kind, Position: r.Position}
 	}
-	rf.Empty = emptyPlaces(l, parts)
+	rf.Empty = EmptyPlaces(l, parts)
 	rows, err = db.pool.Query(ctx, `
 		SELECT `+eventCols+` FROM events
 		WHERE airframe_id = $1 AND resolved_at IS NULL AND kind IN ('crash', 'hard_landing') ORDER BY at`, airframeID)

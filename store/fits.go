@@ -239,7 +239,7 @@ func (db *DB) Fitment(ctx context.Context, airframeID string, at time.Time) (*Fi
 	if err := json.Unmarshal(parts, &fm.Parts); err != nil {
 		return nil, err
 	}
-	fm.Empty = emptyPlaces(l, fm.Parts)
+	fm.Empty = EmptyPlaces(l, fm.Parts)
 	return fm, nil
 }
 
@@ -249,8 +249,8 @@ func scanFittedPart(r pgx.Row) (fleet.FittedPart, error) {
 	return f, err
 }
 
-// emptyPlaces lists the rotor positions without a motor or a propeller.
-func emptyPlaces(l *fleet.Layout, parts []fleet.FittedPart) []EmptyPlace {
+// EmptyPlaces lists the rotor positions without a motor or a propeller.
+func EmptyPlaces(l *fleet.Layout, parts []fleet.FittedPart) []EmptyPlace {
 	have := map[string]bool{}
 	for _, p := range parts {
 		have[string(p.Kind)+"/"+p.Position] = true

@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"time"
 
@@ -11,22 +12,37 @@ import (
 )
 
 const flightCols = `id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g, site_elevation_m,
-	source, log_sha256, notes, override_reason, created_at`
+	source, log_sha256, notes, override_reason, created_at, readiness_at_takeoff`
 
-func scanFlight(row pgx.Row) (*fleet.Flight, error) {
+func scanFlight(row pgx.Row) (*fleet.Flight, error) { return scanFlightWith(row) }
+
+// scanFlightWith scans flightCols followed by the extra columns.
+func scanFlightWith(row pgx.Row, extra ...any) (*fleet.Flight, error) {
 	var f fleet.Flight
-	err := row.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt)
-	if err != nil {
+	var verdict []byte
+	dest := append([]any{&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
+		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &verdict}, extra...)
+	if err := row.Scan(dest...); err != nil {
 		return nil, err
 	}
 	f.Packs = []fleet.FlightPack{}
+	var rd *fleet.Readiness
+	if verdict != nil {
+		rd = new(fleet.Readiness)
+		if err := json.Unmarshal(verdict, rd); err != nil {
+			return nil, err
+		}
+	}
+	f.SetVerdict(rd)
 	return &f, nil
 }
 
-// CreateFlight records a flight and its packs in one transaction. The
-// database refuses overlapping flights of one airframe and a pack in two
-// overlapping flights.
+// CreateFlight records a flight and its packs in one transaction. Only the
+// register's integrity refuses a flight: the database refuses overlapping
+// flights of one airframe and a pack in two overlapping flights, and an
+// unknown airframe or pack is refused. Readiness never refuses it: a flight
+// carrying a verdict that is not ready opens its flown_not_ready event in
+// the same transaction.
 func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight, error) {
 	if f.Source == "" {
 		f.Source = fleet.SourceManual
@@ -54,32 +70,38 @@ func checkFlightTimes(f *fleet.Flight, now time.Time) error {
 	return fleet.CheckTime("landing_at", f.LandingAt, now)
 }
 
-// insertFlight writes the flight, its packs and the audit row in tx.
+// insertFlight writes the flight, its packs, its flown_not_ready event when
+// its verdict says so, and the audit rows in tx. A retired airframe or pack
+// does not refuse it (the flight may predate the retirement, and a flight
+// that happened is a fact): the verdict says so.
 func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Flight, error) {
-	var retired *time.Time
-	err := tx.QueryRow(ctx, `SELECT retired_at FROM airframes WHERE id = $1`, f.AirframeID).Scan(&retired)
+	var known bool
+	err := tx.QueryRow(ctx, `SELECT true FROM airframes WHERE id = $1`, f.AirframeID).Scan(&known)
 	if err == pgx.ErrNoRows {
 		return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "airframe_id", Message: "unknown airframe"}
 	} else if err != nil {
 		return nil, err
 	}
-	if retired != nil {
-		return nil, &fleet.Error{Code: fleet.ECONFLICT, Field: "airframe_id", Message: "the airframe is retired"}
+	var verdict []byte // NULL until judged
+	if f.ReadinessAtTakeoff != nil {
+		if verdict, err = json.Marshal(f.ReadinessAtTakeoff); err != nil {
+			return nil, err
+		}
 	}
 	out, err := scanFlight(tx.QueryRow(ctx, `
 		INSERT INTO flights (id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g,
-			site_elevation_m, source, log_sha256, notes, override_reason)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12) RETURNING `+flightCols,
+			site_elevation_m, source, log_sha256, notes, override_reason, readiness_at_takeoff)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13) RETURNING `+flightCols,
 		newID(), f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
-		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason))
+		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason, verdict))
 	if err != nil {
 		return nil, err
 	}
 	for i, fp := range f.Packs {
 		field := fmt.Sprintf("packs[%d]", i)
-		var kind, status, serial, pn, lot string
-		err := tx.QueryRow(ctx, `SELECT kind, status, serial, part_number, lot FROM parts WHERE id = $1`, fp.PartID).
-			Scan(&kind, &status, &serial, &pn, &lot)
+		var kind, serial, pn, lot string
+		err := tx.QueryRow(ctx, `SELECT kind, serial, part_number, lot FROM parts WHERE id = $1`, fp.PartID).
+			Scan(&kind, &serial, &pn, &lot)
 		if err == pgx.ErrNoRows {
 			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: "unknown part"}
 		} else if err != nil {
@@ -87,9 +109,6 @@ func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Fligh
 		}
 		if kind != string(fleet.KindPack) {
 			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: fmt.Sprintf("part %s is a %s, not a pack", serial, kind)}
-		}
-		if status == fleet.PartRetired {
-			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: field, Message: fmt.Sprintf("pack %s is retired", serial)}
 		}
 		slot := fp.Slot
 		if slot == 0 {
@@ -102,7 +121,21 @@ func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Fligh
 		}
 		out.Packs = append(out.Packs, fleet.FlightPack{PartID: fp.PartID, Serial: serial, PartNumber: pn, Lot: lot, Slot: slot})
 	}
-	return out, audit(ctx, tx, "flight", out.ID, nil, out)
+	if err := audit(ctx, tx, "flight", out.ID, nil, out); err != nil {
+		return nil, err
+	}
+	if rd := out.ReadinessAtTakeoff; rd != nil && !rd.Ready {
+		if _, err := insertEvent(ctx, tx, flownNotReady(out, rd)); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+// flownNotReady is the event that flags a flight which took off not ready.
+func flownNotReady(f *fleet.Flight, rd *fleet.Readiness) *fleet.Event {
+	return &fleet.Event{At: f.TakeoffAt, Kind: fleet.EventFlownNotReady, Severity: fleet.DefaultSeverity(fleet.EventFlownNotReady),
+		AirframeID: &f.AirframeID, FlightID: &f.ID, Detected: true, Detail: fleet.FlownNotReadyDetail(rd, f.OverrideReason)}
 }
 
 // Flight returns one flight with its packs.

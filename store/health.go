@@ -237,14 +237,16 @@ type TrendPoint struct {
 	VibrationRMS    *float64  `json:"vibration_rms"`
 }
 
-// AirframeTrendPoints returns the last n logged flights of an airframe, oldest first.
-func (db *DB) AirframeTrendPoints(ctx context.Context, airframeID string, n int) ([]TrendPoint, error) {
+// AirframeTrendPoints returns the last n logged flights of an airframe
+// taking off before the moment before (nil: all), oldest first.
+func (db *DB) AirframeTrendPoints(ctx context.Context, airframeID string, n int, before *time.Time) ([]TrendPoint, error) {
 	rows, err := db.pool.Query(ctx, `
 		SELECT id, takeoff_at, efficiency_index, vibration_rms FROM (
 			SELECT f.id, f.takeoff_at, m.efficiency_index, m.vibration_rms
 			FROM flights f JOIN flight_metrics m ON m.flight_id = f.id
-			WHERE f.airframe_id = $1 ORDER BY f.takeoff_at DESC LIMIT $2) last
-		ORDER BY takeoff_at`, airframeID, n)
+			WHERE f.airframe_id = $1 AND ($3::timestamptz IS NULL OR f.takeoff_at < $3)
+			ORDER BY f.takeoff_at DESC LIMIT $2) last
+		ORDER BY takeoff_at`, airframeID, n, before)
 	if err != nil {
 		return nil, translate(err)
 	}

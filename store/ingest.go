@@ -214,8 +214,11 @@ func writeAnalysis(ctx context.Context, tx pgx.Tx, flightID, airframeID string, 
 		}
 	}
 	// Open detected events are the analysis's to replace; resolved ones are
-	// people's records and stay.
-	if _, err := tx.Exec(ctx, `DELETE FROM events WHERE flight_id = $1 AND detected AND resolved_at IS NULL`, flightID); err != nil {
+	// people's records and stay. The take-off verdict's event is not the
+	// analysis's.
+	if _, err := tx.Exec(ctx, `
+		DELETE FROM events WHERE flight_id = $1 AND detected AND resolved_at IS NULL AND kind <> 'flown_not_ready'`,
+		flightID); err != nil {
 		return err
 	}
 	for _, e := range a.Events {
@@ -274,15 +277,12 @@ func (db *DB) StoredLogs(ctx context.Context, afterID string, below, limit int) 
 	}
 	out, err := collect(rows, func(r pgx.Row) (StoredLog, error) {
 		var s StoredLog
-		var f fleet.Flight
 		var mapID, mapName *string
 		var mapVersion *int
 		var mapBodyRaw []byte
 		var savedAt *time.Time
-		err := r.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &s.RawGz, &s.Version,
-			&mapID, &mapName, &mapVersion, &mapBodyRaw, &savedAt)
-		s.Flight = &f
+		var err error
+		s.Flight, err = scanFlightWith(r, &s.RawGz, &s.Version, &mapID, &mapName, &mapVersion, &mapBodyRaw, &savedAt)
 		if err != nil || mapID == nil {
 			return s, err
 		}

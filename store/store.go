@@ -218,6 +218,7 @@ var constraintErrors = map[string]struct{ field, msg string }{
 	"flight_packs_part_id_fkey":     {"packs", "unknown pack"},
 	"flights_airframe_id_fkey":      {"airframe_id", "unknown airframe"},
 	"column_maps_name_key":          {"name", "a column map with this name exists"},
+	"events_flown_not_ready_once":   {"flight_id", "the flight already has a flown_not_ready event"},
 }
 
 // translate maps PostgreSQL errors to fleet errors, trusting constraints

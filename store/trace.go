@@ -20,6 +20,11 @@ type ManifestFlight struct {
 	Hours        float64            `json:"hours"`
 	Parts        []fleet.FittedPart `json:"parts"`
 	Packs        []fleet.FlightPack `json:"packs"`
+	// ReadinessAtTakeoff is the flight's verdict as of take-off (nil: not
+	// judged yet); FlownNotReadyEventID names the event that flags a flight
+	// which took off not ready.
+	ReadinessAtTakeoff   *fleet.Readiness `json:"readiness_at_takeoff"`
+	FlownNotReadyEventID *string          `json:"flown_not_ready_event_id"`
 }
 
 // Manifest is the audit answer to "which parts flew on this job".
@@ -41,7 +46,8 @@ func (db *DB) Manifest(ctx context.Context, jobID string) (*Manifest, error) {
 		return nil, err
 	}
 	rows, err := db.pool.Query(ctx, `
-		SELECT fl.id, fl.airframe_id, a.code, fl.pilot, fl.takeoff_at, fl.landing_at
+		SELECT fl.id, fl.airframe_id, a.code, fl.pilot, fl.takeoff_at, fl.landing_at, fl.readiness_at_takeoff,
+			(SELECT e.id FROM events e WHERE e.flight_id = fl.id AND e.kind = 'flown_not_ready')
 		FROM flights fl JOIN airframes a ON a.id = fl.airframe_id
 		WHERE fl.job_id = $1 ORDER BY fl.takeoff_at, fl.id`, jobID)
 	if err != nil {
@@ -49,7 +55,8 @@ func (db *DB) Manifest(ctx context.Context, jobID string) (*Manifest, error) {
 	}
 	flights, err := collect(rows, func(r pgx.Row) (ManifestFlight, error) {
 		var m ManifestFlight
-		err := r.Scan(&m.FlightID, &m.AirframeID, &m.AirframeCode, &m.Pilot, &m.TakeoffAt, &m.LandingAt)
+		err := r.Scan(&m.FlightID, &m.AirframeID, &m.AirframeCode, &m.Pilot, &m.TakeoffAt, &m.LandingAt,
+			&m.ReadinessAtTakeoff, &m.FlownNotReadyEventID)
 		m.Hours = m.LandingAt.Sub(m.TakeoffAt).Hours()
 		m.Parts, m.Packs = []fleet.FittedPart{}, []fleet.FlightPack{}
 		return m, err

@@ -182,7 +182,8 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 			return map[string]int{"reanalysed": stale}, err
 		}
 		res, err := prog.RecomputeAll(ctx)
-		return map[string]int{"reanalysed": stale, "health_views": res.HealthViews, "due_items": res.DueItems}, err
+		return map[string]int{"reanalysed": stale, "health_views": res.HealthViews, "judged_flights": res.Judged,
+			"due_items": res.DueItems}, err
 	}); err != nil {
 		return nil, err
 	}

@@ -123,7 +123,7 @@ func TestColumnMapCheckAndImport(t *testing.T) {
 	os.WriteFile(filepath.Join(imp, "b.csv.gz"), gz.Bytes(), 0o644)
 	out, errOut, code = runCLI(t, "import", imp, "--airframe", "SIM-01", "--column-map", "sim-epoch-us",
 		"--override", "bench logs", "--database-url", url)
-	if code != 0 || !strings.Contains(out, "1 imported, 1 already present, 0 refused") {
+	if code != 0 || !strings.Contains(out, "1 imported (0 flown not ready), 1 already present, 0 refused") {
 		t.Fatalf("import --column-map: exit %d\n%s\n%s", code, out, errOut)
 	}
 	var mapID string

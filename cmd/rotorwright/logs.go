@@ -46,7 +46,7 @@ layout (check a file first with 'rotorwright column-map check').`,
 	}
 	cmd.Flags().StringVar(&code, "airframe", "", "tail code of the airframe the logs belong to")
 	cmd.Flags().StringVar(&pilot, "pilot", "not recorded", "pilot to record on each flight")
-	cmd.Flags().StringVar(&override, "override", "", "record the flights even if the airframe is not ready, for this reason")
+	cmd.Flags().StringVar(&override, "override", "", "why the flights went ahead if the airframe was not ready (kept with each flight)")
 	cmd.Flags().StringVar(&mapRef, "column-map", "", "read every log through this column map (name or id; native for the service's own layout)")
 	return c.tool(cmd, func(ctx context.Context, app *App, args []string) error {
 		return importDir(ctx, app, args[0], code, pilot, override, mapRef)
@@ -74,11 +74,7 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override, mapRef
 	ctx = store.WithActor(ctx, store.Actor{Name: "import", Method: "CLI", Route: "import"})
 	hs := health.New(app.DB)
 	prog := schedule.NewProgramme(app.DB, hs)
-	in := &ingest.Ingester{DB: app.DB, Health: hs, Gate: prog.Gate,
-		After: func(ctx context.Context, f *fleet.Flight) error {
-			_, err := prog.RecomputeAirframe(ctx, f.AirframeID, nil)
-			return err
-		}}
+	in := &ingest.Ingester{DB: app.DB, Health: hs, Judge: prog.JudgeTakeoff, After: prog.AfterFlight}
 	var reasonPtr *string
 	if override != "" {
 		reasonPtr = &override
@@ -86,7 +82,7 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override, mapRef
 	bar := progressbar.NewOptions(len(files), progressbar.OptionSetWriter(app.errOut),
 		progressbar.OptionSetDescription("importing "+code), progressbar.OptionShowCount(),
 		progressbar.OptionSetPredictTime(true), progressbar.OptionClearOnFinish())
-	var imported, present int
+	var imported, present, notReady int
 	var refused []string
 	start := time.Now()
 	for _, path := range files {
@@ -97,14 +93,17 @@ func importDir(ctx context.Context, app *App, dir, code, pilot, override, mapRef
 			refused = append(refused, fmt.Sprintf("  %s: %s", filepath.Base(path), reason(err)))
 		case res.Created:
 			imported++
+			if res.Verdict != nil && !res.Verdict.Ready {
+				notReady++
+			}
 		default:
 			present++
 		}
 		_ = bar.Add(1)
 	}
 	_ = bar.Finish()
-	fmt.Fprintf(app.out, "%s: %d imported, %d already present, %d refused (%d files in %s)\n",
-		code, imported, present, len(refused), len(files), time.Since(start).Round(time.Millisecond))
+	fmt.Fprintf(app.out, "%s: %d imported (%d flown not ready), %d already present, %d refused (%d files in %s)\n",
+		code, imported, notReady, present, len(refused), len(files), time.Since(start).Round(time.Millisecond))
 	if len(refused) > 0 {
 		fmt.Fprintln(app.out, "refused:")
 		fmt.Fprintln(app.out, strings.Join(refused, "\n"))
@@ -178,6 +177,7 @@ func recomputeAll(ctx context.Context, app *App) error {
 		return err
 	}
 	fmt.Fprintf(app.out, "recomputed health of %d parts and airframes in %s\n", r.HealthViews, r.HealthTook.Round(time.Millisecond))
+	fmt.Fprintf(app.out, "judged readiness at take-off of %d flights recorded without it in %s\n", r.Judged, r.JudgeTook.Round(time.Millisecond))
 	fmt.Fprintf(app.out, "recomputed the due list (%d items) in %s\n", r.DueItems, r.DueTook.Round(time.Millisecond))
 	return nil
 }

@@ -56,22 +56,28 @@ func TestImportAndReanalyze(t *testing.T) {
 	os.WriteFile(filepath.Join(dir, "flight-c-copy.csv"), first, 0o644)
 	os.WriteFile(filepath.Join(dir, "flight-d-bad.csv"), []byte("t_s,pack_v,pack_a\n0,16.8,0.5\n0.5,16.7,x\n"), 0o644)
 
-	// The airframe has no motors or propellers fitted: not ready, so every
-	// log is refused unless the import says why it records them anyway.
+	// The airframe has no motors or propellers on record: the logs are
+	// imported all the same (the old code refused every one as not ready),
+	// their verdicts warn of the gap; only the bad file is refused.
 	// Flags after the folder here, before it the second time: both orders
 	// are one command line.
 	out, errOut, code := runCLI(t, "import", dir, "--airframe", "SIM-01", "--database-url", url)
-	if code != exitFailure || !strings.Contains(out, "not ready to fly") {
-		t.Fatalf("import of logs for an unready airframe: exit %d\n%s\n%s", code, out, errOut)
+	if code != exitFailure || !strings.Contains(errOut, "1 of 4 logs refused") {
+		t.Fatalf("import: exit %d, stderr %q, want 1 of 4 refused\n%s", code, errOut, out)
+	}
+	if !strings.Contains(out, "2 imported (0 flown not ready), 1 already present, 1 refused") ||
+		!strings.Contains(out, "flight-d-bad.csv: line 3, column pack_a") {
+		t.Fatalf("summary:\n%s", out)
+	}
+	var warned int
+	if err := db.Pool().QueryRow(ctx, `SELECT count(*) FROM flights
+		WHERE readiness_at_takeoff->'warnings' @> '[{"code": "no_fitted_motors"}]'`).Scan(&warned); err != nil || warned != 2 {
+		t.Fatalf("%d flights warn of no fitted motors, want 2 (%v)", warned, err)
 	}
 	out, errOut, code = runCLI(t, "import", "--airframe", "SIM-01", "--override", "bench logs from the test rig",
 		"--database-url", url, dir)
-	if code != exitFailure || !strings.Contains(errOut, "1 of 4 logs refused") {
-		t.Fatalf("import: exit %d, stderr %q, want 1 of 4 refused", code, errOut)
-	}
-	if !strings.Contains(out, "2 imported, 1 already present, 1 refused") ||
-		!strings.Contains(out, "flight-d-bad.csv: line 3, column pack_a") {
-		t.Fatalf("summary:\n%s", out)
+	if code != exitFailure || !strings.Contains(out, "0 imported (0 flown not ready), 3 already present, 1 refused") {
+		t.Fatalf("second import: exit %d\n%s\n%s", code, out, errOut)
 	}
 
 	// Spoil a stored figure, then reanalyze puts back what the log says.

@@ -71,7 +71,8 @@ func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress
 		{"part statuses", l.loadStatuses},
 		{"health and due list", func(*sim.Scenario) error {
 			r, err := schedule.NewProgramme(l.db, health.New(l.db)).RecomputeAll(l.ctx)
-			progress("demo: health of %d parts and airframes and %d due items computed", r.HealthViews, r.DueItems)
+			progress("demo: health of %d parts and airframes, %d take-off verdicts and %d due items computed",
+				r.HealthViews, r.Judged, r.DueItems)
 			return err
 		}},
 	}
