@@ -43,6 +43,7 @@ type logPart struct {
 	name     string // file name; default flight.csv
 	encoding string // Content-Encoding of the part
 	mapRef   string // the column_map part, when set
+	key      string // Idempotency-Key, when set
 }
 
 // uploadWith sends a multipart upload with a column_map part and the log
@@ -73,6 +74,9 @@ func (e *env) uploadWith(flight any, log []byte, lp logPart) *resp {
 	req := httptest.NewRequest("POST", "/v1/flights", bytes.NewReader(buf.Bytes()))
 	req.Header.Set("Content-Type", w.FormDataContentType())
 	req.Header.Set("Authorization", "Bearer "+e.tokens[pilot])
+	if lp.key != "" {
+		req.Header.Set("Idempotency-Key", lp.key)
+	}
 	rec := httptest.NewRecorder()
 	e.h.ServeHTTP(rec, req)
 	r := &resp{Status: rec.Code, Header: rec.Header(), Body: rec.Body.Bytes()}
@@ -371,5 +375,12 @@ func TestUploadGzipLimits(t *testing.T) {
 	var n int
 	if err := e.db.Pool().QueryRow(context.Background(), `SELECT count(*) FROM flights`).Scan(&n); err != nil || n != 0 {
 		t.Fatalf("%d flights after refusals (%v)", n, err)
+	}
+	// An Idempotency-Key retry must be the same upload: the same bytes
+	// declared gzip are another request (422), not a replay of the first.
+	first := e.uploadWith(flight, text[:200], logPart{key: "gz-ik"})
+	again := e.uploadWith(flight, text[:200], logPart{key: "gz-ik", encoding: "gzip"})
+	if p := again.problem(t); first.Status != 201 || again.Status != 422 || p.Field != "Idempotency-Key" {
+		t.Fatalf("retry with another encoding: %d then %d %+v", first.Status, again.Status, p)
 	}
 }

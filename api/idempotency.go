@@ -147,7 +147,7 @@ func (s *Server) keepLease(claim *store.Claim) (stop func()) {
 
 // fingerprint identifies a request body for an idempotency key. A multipart
 // body is identified by its parts — names, file names, content types and
-// bytes, in order — not its raw bytes, because a client (curl) picks a new
+// encodings and bytes, in order — not its raw bytes, because a client (curl) picks a new
 // boundary on every retry. Anything else is its media type and bytes.
 func fingerprint(contentType string, body []byte) []byte {
 	h := sha256.New()
@@ -185,6 +185,7 @@ func partsSum(body []byte, boundary string) ([]byte, bool) {
 		field(p.FormName())
 		field(p.FileName())
 		field(p.Header.Get("Content-Type"))
+		field(p.Header.Get("Content-Encoding")) // gzip or not changes what the bytes say
 		field(string(sum[:]))
 	}
 }
