@@ -166,6 +166,9 @@ func TestColumnMapValidationAndAmbiguity(t *testing.T) {
 		"columns.pack_a.scale": `{"name": "a", "time": {"column": "T"}, "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "A", "scale": 0}}}`,
 		"columns.pack_v.from":  `{"name": "a", "time": {"column": "T"}, "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "V"}}}`,
 		"time.unit":            `{"name": "a", "time": {"column": "T", "unit": "min"}, "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "A"}}}`,
+		"columns":              `{"name": "a", "time": {"column": "T"}}`,
+		"time.column":          `{"name": "a", "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "A"}}}`,
+		"name":                 `{"time": {"column": "T"}, "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "A"}}}`,
 		"columns.rpm_m1":       `{"name": "a", "time": {"column": "T"}, "columns": {"pack_v": {"from": "V"}, "pack_a": {"from": "A"}, "rpm_m1": {"from": "R"}, "rpm_m1": {"from": "S"}}}`,
 	}
 	for field, js := range bad {

@@ -79,6 +79,10 @@ type MapColumns map[string]MapSource
 // UnmarshalJSON decodes the table, refusing repeated targets and unknown
 // members of a source.
 func (mc *MapColumns) UnmarshalJSON(b []byte) error {
+	if string(bytes.TrimSpace(b)) == "null" {
+		*mc = nil // absent; Validate says it is required
+		return nil
+	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	if t, err := dec.Token(); err != nil || t != json.Delim('{') {
 		return FieldError("columns", "must be an object of target: {from, scale, offset, negate}")
