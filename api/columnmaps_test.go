@@ -304,6 +304,10 @@ func TestUploadThroughColumnMap(t *testing.T) {
 	if r.Status != 200 || d2.ID != d.ID {
 		t.Fatalf("the same log plain: %d %s, want 200 with flight %s", r.Status, r.Body, d.ID)
 	}
+	r = e.uploadWith(flight, foreign.Bytes(), logPart{mapRef: maps[0].ID})
+	if r.decode(t, &d2); r.Status != 200 || d2.ID != d.ID {
+		t.Fatalf("the same log, map named by id: %d %s", r.Status, r.Body)
+	}
 	var stored []byte
 	if err := e.db.Pool().QueryRow(context.Background(), `SELECT raw_gz FROM flight_logs WHERE flight_id = $1`, d.ID).Scan(&stored); err != nil {
 		t.Fatal(err)
