@@ -1,7 +1,6 @@
 package api
 
 import (
-	"encoding/csv"
 	"net/http"
 	"strconv"
 	"strings"
@@ -87,9 +86,10 @@ func (s *Server) jobManifest(c *gin.Context) {
 	c.Header("Content-Type", "text/csv; charset=utf-8")
 	c.Header("Content-Disposition", `attachment; filename="manifest-`+m.Job.Code+`.csv"`)
 	c.Status(http.StatusOK)
-	w := csv.NewWriter(c.Writer)
-	_ = w.Write([]string{"job", "flight_id", "airframe", "pilot", "takeoff_at", "landing_at", "hours",
-		"ready_at_takeoff", "takeoff_blockers", "kind", "position", "serial", "part_number", "lot"})
+	w := newCSV(c.Writer)
+	_ = w.row(text("job"), text("flight_id"), text("airframe"), text("pilot"), text("takeoff_at"), text("landing_at"),
+		text("hours"), text("ready_at_takeoff"), text("takeoff_blockers"), text("kind"), text("position"),
+		text("serial"), text("part_number"), text("lot"))
 	for _, f := range m.Flights {
 		// ready_at_takeoff: yes, no (flown not ready: the blockers' codes
 		// follow) or empty while not judged.
@@ -100,19 +100,23 @@ func (s *Server) jobManifest(c *gin.Context) {
 				blockers = append(blockers, b.Code)
 			}
 		}
-		head := []string{m.Job.Code, f.FlightID, f.AirframeCode, f.Pilot, f.TakeoffAt.UTC().Format(time.RFC3339),
-			f.LandingAt.UTC().Format(time.RFC3339), strconv.FormatFloat(f.Hours, 'f', 4, 64), ready,
-			strings.Join(blockers, " ")}
+		head := []cell{text(m.Job.Code), text(f.FlightID), text(f.AirframeCode), text(f.Pilot),
+			text(f.TakeoffAt.UTC().Format(time.RFC3339)), text(f.LandingAt.UTC().Format(time.RFC3339)), num(f.Hours, 4),
+			text(ready), text(strings.Join(blockers, " "))}
 		for _, p := range f.Parts {
-			_ = w.Write(append(head[:len(head):len(head)], string(p.Kind), p.Position, p.Serial, p.PartNumber, p.Lot))
+			_ = w.row(append(head[:len(head):len(head)], text(string(p.Kind)), text(p.Position), text(p.Serial),
+				text(p.PartNumber), text(p.Lot))...)
 		}
 		for _, p := range f.Packs {
-			_ = w.Write(append(head[:len(head):len(head)], "pack", "slot "+strconv.Itoa(p.Slot), p.Serial, p.PartNumber, p.Lot))
+			_ = w.row(append(head[:len(head):len(head)], text("pack"), text("slot "+strconv.Itoa(p.Slot)), text(p.Serial),
+				text(p.PartNumber), text(p.Lot))...)
 		}
 		if len(f.Parts)+len(f.Packs) == 0 {
 			// A flight with no part on record still has its row.
-			_ = w.Write(append(head[:len(head):len(head)], "", "", "", "", ""))
+			_ = w.row(append(head[:len(head):len(head)], text(""), text(""), text(""), text(""), text(""))...)
 		}
 	}
-	w.Flush()
+	if err := w.flush(); err != nil {
+		s.log.Info("manifest CSV not fully written", "err", err)
+	}
 }

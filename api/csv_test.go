@@ -1,0 +1,88 @@
+package api_test
+
+import (
+	"encoding/csv"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// Every CSV the service writes neutralises cells a spreadsheet would run as
+// a formula (before the fix the manifest emitted =HYPERLINK(...) and +, -, @
+// cells raw). The test finds the CSV routes in the document, so a new one
+// fails here until it is covered.
+func TestCSVCellsCannotBeFormulas(t *testing.T) {
+	e := newEnv(t)
+	a := e.quad("CSV-1")
+	at := time.Now().Add(-48 * time.Hour).UTC().Truncate(time.Second)
+	evil := []string{`=HYPERLINK("http://example.invalid","x")`, "+1+1", "-2+3", "@SUM(A1)", "\t=1", "\r=1"}
+	for i, rot := range []fleet.Rotation{fleet.CCW, fleet.CW, fleet.CCW, fleet.CW} {
+		m := e.create("/v1/parts", map[string]any{"kind": "motor", "serial": evil[i] + "-M", "part_number": evil[(i+1)%6],
+			"lot": evil[(i+2)%6], "specs": map[string]any{"rotation": rot}})
+		p := e.create("/v1/parts", map[string]any{"kind": "propeller", "serial": evil[i] + "-P", "lot": evil[(i+3)%6],
+			"specs": map[string]any{"rotation": rot, "diameter_in": 15, "blades": 2}})
+		for _, part := range []idBody{m, p} {
+			if r := e.call("POST", "/v1/airframes/"+a.ID+"/fits", tech, map[string]any{"part_id": part.ID,
+				"position": "m" + strconv.Itoa(i+1), "at": at}); r.Status != 201 {
+				t.Fatalf("fit: %d %s", r.Status, r.Body)
+			}
+		}
+	}
+	job := e.create("/v1/jobs", map[string]any{"code": "CSV-J", "client": "=cmd|' /C calc'!A0"})
+	if r := e.call("POST", "/v1/flights", tech, map[string]any{"airframe_id": a.ID, "job_id": job.ID, "pilot": evil[0],
+		"takeoff_at": at.Add(time.Hour), "landing_at": at.Add(90 * time.Minute)}); r.Status != 201 {
+		t.Fatalf("flight: %d %s", r.Status, r.Body)
+	}
+	covered := map[string]func() string{
+		"/v1/jobs/{id}/manifest": func() string { return "/v1/jobs/" + job.ID + "/manifest?format=csv" },
+	}
+	// The stored flight log is returned byte for byte as uploaded (its
+	// SHA-256 identifies the upload); it is the pilot's own file, not one
+	// the service writes, and it is served as an attachment.
+	exempt := map[string]bool{"/v1/flights/{id}/log": true}
+	for path, item := range spec.Paths.Map() {
+		for _, op := range item.Operations() {
+			csvOut := false
+			for _, r := range op.Responses.Map() {
+				if r.Value != nil && r.Value.Content.Get("text/csv") != nil {
+					csvOut = true
+				}
+			}
+			if !csvOut || exempt[path] {
+				continue
+			}
+			url, ok := covered[path]
+			if !ok {
+				t.Errorf("CSV route %s is not covered by this test", path)
+				continue
+			}
+			r := e.call("GET", url(), fleet.RoleViewer, nil)
+			if r.Status != 200 {
+				t.Fatalf("%s: %d %s", path, r.Status, r.Body)
+			}
+			rows, err := csv.NewReader(strings.NewReader(string(r.Body))).ReadAll()
+			if err != nil {
+				t.Fatalf("%s: %v", path, err)
+			}
+			quoted := 0
+			for i, row := range rows {
+				for j, cell := range row {
+					if cell == "" || !strings.ContainsAny(cell[:1], "=+-@\t\r") {
+						quoted += strings.Count(cell[:min(1, len(cell))], "'")
+						continue
+					}
+					// A number the service formatted may be negative; nothing else may begin so.
+					if _, err := strconv.ParseFloat(cell, 64); err != nil {
+						t.Errorf("%s row %d column %d: %q would run as a formula", path, i+1, j+1, cell)
+					}
+				}
+			}
+			if quoted < 10 {
+				t.Errorf("%s: only %d neutralised cells; the planted values did not come through", path, quoted)
+			}
+		}
+	}
+}
