@@ -220,7 +220,7 @@ func TestUploadThroughColumnMap(t *testing.T) {
 	if err := layouts[0].Transcribe(native.Bytes(), &foreign); err != nil {
 		t.Fatal(err)
 	}
-	flight := map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "packs": []string{pk.ID},
+	flight := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID},
 		"site_elevation_m": spec.SiteElevationM}
 
 	// A refusal names line and source column; nothing is written.
@@ -364,7 +364,7 @@ func TestUploadGzipLimits(t *testing.T) {
 	if len(comp) > 1<<20 {
 		t.Fatalf("the compressed log (%d bytes) is over the upload limit itself", len(comp))
 	}
-	flight := map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "packs": []string{pk.ID},
+	flight := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID},
 		"takeoff_at": "2026-05-04T09:30:00Z", "landing_at": "2026-05-04T09:31:00Z"}
 	r := small.uploadWith(flight, comp, logPart{name: "flight-7.csv.gz"})
 	if p := r.problem(t); r.Status != 422 || !strings.Contains(p.Detail, "larger than the limit") {

@@ -73,6 +73,9 @@ func (s *Server) createFlight(c *gin.Context) {
 		return
 	}
 	f, err := in.flight()
+	if err == nil {
+		err = pilotOf(c, f)
+	}
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -189,6 +192,9 @@ func (s *Server) uploadFlight(c *gin.Context) {
 		return
 	}
 	f, err := in.flight()
+	if err == nil {
+		err = pilotOf(c, f)
+	}
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -212,6 +218,21 @@ func (s *Server) uploadFlight(c *gin.Context) {
 	}
 	c.Header("Location", "/v1/flights/"+d.ID)
 	c.JSON(status, d)
+}
+
+// pilotOf sets a flight's pilot to the key's person when none is given, and
+// lets only a technician (or above) record a flight flown by someone else.
+func pilotOf(c *gin.Context, f *fleet.Flight) error {
+	k := c.MustGet(ctxKey).(*fleet.APIKey)
+	if f.Pilot == "" {
+		f.Pilot = k.Person
+		return nil
+	}
+	if !strings.EqualFold(strings.TrimSpace(f.Pilot), strings.TrimSpace(k.Person)) && !k.Role.AtLeast(fleet.RoleTechnician) {
+		return &fleet.Error{Code: fleet.EFORBIDDEN, Field: "pilot",
+			Message: fmt.Sprintf("this key belongs to %s: recording a flight flown by someone else needs a technician", k.Person)}
+	}
+	return nil
 }
 
 func (in *uploadInput) flight() (*fleet.Flight, error) {

@@ -72,7 +72,7 @@ func TestWalkthrough(t *testing.T) {
 	pack := e.create("/v1/parts", map[string]any{"kind": "pack", "serial": "P-100",
 		"specs": map[string]any{"chemistry": "lipo", "cells_s": 6, "cells_p": 1, "rated_mah": 16000}})
 	job := e.create("/v1/jobs", map[string]any{"code": "QUARRY-N", "client": "Northfield Aggregates", "site": "North pit"})
-	fl := e.call("POST", "/v1/flights", pilot, map[string]any{"airframe_id": a.ID, "job_id": job.ID, "pilot": "A. Moreau",
+	fl := e.call("POST", "/v1/flights", pilot, map[string]any{"airframe_id": a.ID, "job_id": job.ID, "pilot": "test pilot",
 		"takeoff_at": t0.Add(time.Hour), "landing_at": t0.Add(time.Hour + 22*time.Minute), "packs": []string{pack.ID}})
 	if fl.Status != 201 {
 		t.Fatalf("flight: %d %s", fl.Status, fl.Body)
@@ -245,7 +245,7 @@ func TestBadInputNamesTheField(t *testing.T) {
 		{"bad part kind", "POST", "/v1/parts", map[string]any{"kind": "rotor", "serial": "R1"}, 400, "kind"},
 		{"bad part id", "POST", "/v1/airframes/" + a.ID + "/fits", map[string]any{"part_id": "nope", "position": "m1"}, 400, "part_id"},
 		{"landing before take-off", "POST", "/v1/flights", map[string]any{"airframe_id": a.ID, "pilot": "K", "takeoff_at": "2026-05-01T10:00:00Z", "landing_at": "2026-05-01T09:00:00Z"}, 422, "landing_at"},
-		{"missing pilot", "POST", "/v1/flights", map[string]any{"airframe_id": a.ID, "takeoff_at": "2026-05-01T10:00:00Z", "landing_at": "2026-05-01T10:20:00Z"}, 400, "pilot"},
+		{"blank pilot", "POST", "/v1/flights", map[string]any{"airframe_id": a.ID, "pilot": " ", "takeoff_at": "2026-05-01T10:00:00Z", "landing_at": "2026-05-01T10:20:00Z"}, 400, "pilot"},
 		{"job dates", "POST", "/v1/jobs", map[string]any{"code": "J", "client": "C", "starts_on": "2026-05-02", "ends_on": "2026-05-01"}, 400, "ends_on"},
 		{"page size", "GET", "/v1/parts?limit=501", nil, 400, "limit"},
 		{"bad cursor", "GET", "/v1/parts?cursor=zzz", nil, 400, "cursor"},
@@ -267,7 +267,7 @@ func TestBadInputNamesTheField(t *testing.T) {
 	}
 	// Overlapping flights are refused by the database and reported as 409.
 	t1 := time.Now().Add(-3 * time.Hour).UTC().Truncate(time.Second)
-	ok := map[string]any{"airframe_id": a.ID, "pilot": "K", "takeoff_at": t1, "landing_at": t1.Add(30 * time.Minute)}
+	ok := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "takeoff_at": t1, "landing_at": t1.Add(30 * time.Minute)}
 	if r := e.call("POST", "/v1/flights", pilot, ok); r.Status != 201 {
 		t.Fatalf("flight: %d %s", r.Status, r.Body)
 	}
@@ -310,14 +310,14 @@ func TestRequestLimitsAndInternalErrors(t *testing.T) {
 func TestEventsCreateListResolve(t *testing.T) {
 	e := newEnv(t)
 	a := e.quad("HX-07")
-	r := e.call("POST", "/v1/events", pilot, map[string]any{"kind": "hard_landing", "airframe_id": a.ID, "detail": "gust on touchdown"})
+	r := e.call("POST", "/v1/events", pilot, map[string]any{"kind": "overdischarge", "airframe_id": a.ID, "detail": "3.1 V per cell at landing"})
 	var ev struct {
 		ID         string  `json:"id"`
 		Severity   string  `json:"severity"`
 		ResolvedBy *string `json:"resolved_by"`
 	}
 	r.decode(t, &ev)
-	if r.Status != 201 || ev.Severity != "critical" {
+	if r.Status != 201 || ev.Severity != "warning" {
 		t.Fatalf("create: %d %s", r.Status, r.Body)
 	}
 	var open struct {
@@ -331,7 +331,7 @@ func TestEventsCreateListResolve(t *testing.T) {
 	if r := e.call("PATCH", "/v1/events/"+ev.ID, pilot, map[string]any{"resolved": true}, "If-Match", tag); r.Status != 400 {
 		t.Fatalf("resolve without a resolution: %d", r.Status)
 	}
-	r = e.call("PATCH", "/v1/events/"+ev.ID, tech, map[string]any{"resolved": true, "resolution": "arms and gear inspected, no damage"}, "If-Match", tag)
+	r = e.call("PATCH", "/v1/events/"+ev.ID, tech, map[string]any{"resolved": true, "resolution": "pack checked, resting voltage normal"}, "If-Match", tag)
 	r.decode(t, &ev)
 	if r.Status != 200 || ev.ResolvedBy == nil || *ev.ResolvedBy != "test technician" {
 		t.Fatalf("resolve: %d %s", r.Status, r.Body)

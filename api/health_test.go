@@ -34,7 +34,7 @@ func TestHealthRoutes(t *testing.T) {
 		}
 	}
 	log, _ := genLog(t, spec)
-	if r := e.upload(map[string]any{"pilot": "I. Brandt", "takeoff_mass_g": 1500}, log, pilot); r.Status != 201 {
+	if r := e.upload(map[string]any{"pilot": "test pilot", "takeoff_mass_g": 1500}, log, pilot); r.Status != 201 {
 		t.Fatalf("upload: %d %s", r.Status, r.Body)
 	}
 	var hv struct {

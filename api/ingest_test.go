@@ -100,7 +100,7 @@ func TestUploadLogIdempotent(t *testing.T) {
 	e := newEnv(t)
 	_, _, spec := e.simFleet()
 	log, truth := genLog(t, spec)
-	r := e.upload(map[string]any{"pilot": "I. Brandt", "site_elevation_m": spec.SiteElevationM}, log, pilot)
+	r := e.upload(map[string]any{"pilot": "test pilot", "site_elevation_m": spec.SiteElevationM}, log, pilot)
 	if r.Status != 201 {
 		t.Fatalf("upload: %d %s", r.Status, r.Body)
 	}
@@ -121,7 +121,7 @@ func TestUploadLogIdempotent(t *testing.T) {
 	if d.Metrics.ThrustK == nil {
 		t.Fatal("thrust_k is null though mass (empty + pack) and rotor data are known")
 	}
-	again := e.upload(map[string]any{"pilot": "I. Brandt"}, log, pilot)
+	again := e.upload(map[string]any{"pilot": "test pilot"}, log, pilot)
 	var d2 flightDetail
 	again.decode(t, &d2)
 	if again.Status != 200 || d2.ID != d.ID {
@@ -160,7 +160,7 @@ func TestConcurrentSameUploadOneFlight(t *testing.T) {
 	log, _ := genLog(t, spec)
 	srv := httptest.NewServer(e.h)
 	defer srv.Close()
-	body, ct := multipartBody(t, map[string]any{"pilot": "I. Brandt"}, log)
+	body, ct := multipartBody(t, map[string]any{"pilot": "test pilot"}, log)
 	const n = 20
 	var wg sync.WaitGroup
 	ids, codes := make([]string, n), make([]int, n)
@@ -225,7 +225,7 @@ func TestUploadRefusalsWriteNothing(t *testing.T) {
 		{"time going back", "pack_a,t_s,pack_v\n0.5,0,16.8\n10,2,16.7\n10,1.5,16.6\n", 4, "t_s"},
 	}
 	for _, c := range cases {
-		r := e.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "packs": []string{pk.ID},
+		r := e.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID},
 			"takeoff_at": "2026-05-04T09:30:00Z", "landing_at": "2026-05-04T09:30:01Z"}, []byte(c.log), pilot)
 		p := r.problem(t)
 		if r.Status != 422 || p.Line != c.line || p.Column != c.column {
@@ -234,30 +234,30 @@ func TestUploadRefusalsWriteNothing(t *testing.T) {
 	}
 	// The row and byte limits: a server with small limits refuses a larger log.
 	small := e.withLimits(3, 1<<20)
-	r := small.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "packs": []string{pk.ID}},
+	r := small.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID}},
 		[]byte(good+"3,16.5,10\n"), pilot)
 	if p := r.problem(t); r.Status != 422 || p.Line != 6 {
 		t.Errorf("row limit: %d %+v", r.Status, p)
 	}
 	tiny := e.withLimits(1000, 40)
-	r = tiny.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt"}, []byte(good), pilot)
+	r = tiny.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot"}, []byte(good), pilot)
 	if p := r.problem(t); r.Status != 422 || p.Field != "log" {
 		t.Errorf("byte limit: %d %+v", r.Status, p)
 	}
 	// Missing parts and a bad flight part.
-	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt"}, nil, pilot)
+	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot"}, nil, pilot)
 	if p := r.problem(t); r.Status != 400 || p.Field != "log" {
 		t.Errorf("no log part: %d %+v", r.Status, p)
 	}
-	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "colour": "red"}, []byte(good), pilot)
+	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "colour": "red"}, []byte(good), pilot)
 	if p := r.problem(t); r.Status != 400 || p.Field != "colour" {
 		t.Errorf("unknown member in flight part: %d %+v", r.Status, p)
 	}
-	r = e.upload(map[string]any{"pilot": "I. Brandt"}, []byte(good), pilot)
+	r = e.upload(map[string]any{"pilot": "test pilot"}, []byte(good), pilot)
 	if p := r.problem(t); r.Status != 400 || p.Field != "airframe_id" {
 		t.Errorf("no airframe anywhere: %d %+v", r.Status, p)
 	}
-	r = e.upload(map[string]any{"pilot": "I. Brandt"}, []byte("# airframe: NOPE-9\n"+good[strings.Index(good, "\n")+1:]), pilot)
+	r = e.upload(map[string]any{"pilot": "test pilot"}, []byte("# airframe: NOPE-9\n"+good[strings.Index(good, "\n")+1:]), pilot)
 	if p := r.problem(t); r.Status != 422 || p.Field != "airframe_id" {
 		t.Errorf("unknown airframe in metadata: %d %+v", r.Status, p)
 	}
@@ -271,7 +271,7 @@ func TestUploadRefusalsWriteNothing(t *testing.T) {
 		}
 	}
 	// The good log is accepted, with its times from the flight part.
-	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "I. Brandt", "packs": []string{pk.ID},
+	r = e.upload(map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID},
 		"takeoff_at": "2026-05-04T09:30:00.5Z", "landing_at": "2026-05-04T09:30:01.5Z"}, []byte(good), pilot)
 	if r.Status != 201 {
 		t.Fatalf("good log: %d %s", r.Status, r.Body)
@@ -284,7 +284,7 @@ func TestUploadDetectsHardLanding(t *testing.T) {
 	_, _, spec := e.simFleet()
 	spec.LandingG = 3.5
 	log, _ := genLog(t, spec)
-	r := e.upload(map[string]any{"pilot": "I. Brandt"}, log, pilot)
+	r := e.upload(map[string]any{"pilot": "test pilot"}, log, pilot)
 	var d flightDetail
 	r.decode(t, &d)
 	kinds := []string{}
@@ -324,7 +324,7 @@ func TestFlightReturnsPackFigures(t *testing.T) {
 	}
 	e.fitQuad(a, "T", "", time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC))
 	log, truth := genLog(t, spec)
-	r := e.upload(map[string]any{"pilot": "I. Brandt", "packs": ids, "site_elevation_m": spec.SiteElevationM,
+	r := e.upload(map[string]any{"pilot": "test pilot", "packs": ids, "site_elevation_m": spec.SiteElevationM,
 		"override_reason": "bench flight"}, log, pilot)
 	if r.Status != 201 {
 		t.Fatalf("upload: %d %s", r.Status, r.Body)

@@ -10,8 +10,9 @@ import (
 )
 
 type keyInput struct {
-	Name string     `json:"name"`
-	Role fleet.Role `json:"role"`
+	Name   string     `json:"name"`
+	Person string     `json:"person"` // who holds it; the name when not given
+	Role   fleet.Role `json:"role"`
 }
 
 // createdKey carries the token, shown this once and never again.
@@ -26,7 +27,10 @@ func (s *Server) createKey(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	k, token, err := s.db.CreateKey(c.Request.Context(), in.Name, in.Role)
+	if in.Person == "" {
+		in.Person = in.Name
+	}
+	k, token, err := s.db.CreatePersonKey(c.Request.Context(), in.Name, in.Person, in.Role)
 	if err != nil {
 		s.fail(c, err)
 		return

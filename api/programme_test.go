@@ -57,7 +57,7 @@ func TestProgrammeRoutes(t *testing.T) {
 		"specs": map[string]any{"chemistry": "lipo", "cells_s": 6, "cells_p": 1, "rated_mah": 16000}})
 	flight := func(h int, override string) *resp {
 		at := time.Now().Add(-time.Duration(h) * time.Hour).UTC().Truncate(time.Second)
-		body := map[string]any{"airframe_id": a.ID, "pilot": "N. Kaur", "takeoff_at": at, "landing_at": at.Add(20 * time.Minute),
+		body := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "takeoff_at": at, "landing_at": at.Add(20 * time.Minute),
 			"packs": []string{pack.ID}}
 		if override != "" {
 			body["override_reason"] = override

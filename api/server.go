@@ -270,7 +270,7 @@ func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 		c.Set(ctxKey, k)
 		ctx := store.WithActor(c.Request.Context(), store.Actor{
 			KeyID: k.ID, Name: k.Name, RequestID: c.GetString(ctxRequestID), ClientRequestID: c.GetString(ctxClientRequestID),
-			Method: c.Request.Method, Route: c.FullPath(),
+			Method: c.Request.Method, Route: c.FullPath(), Role: k.Role,
 		})
 		c.Request = c.Request.WithContext(ctx)
 		c.Next()

@@ -51,7 +51,7 @@ func TestFlightsRecordedWithVerdict(t *testing.T) {
 			packs = []string{}
 		}
 		r := e.call("POST", "/v1/flights", pilot, map[string]any{"airframe_id": airframe, "job_id": job.ID,
-			"pilot": "S. Varga", "takeoff_at": at, "landing_at": at.Add(2 * time.Minute), "packs": packs})
+			"pilot": "test pilot", "takeoff_at": at, "landing_at": at.Add(2 * time.Minute), "packs": packs})
 		var v takeoffVerdict
 		r.decode(t, &v)
 		return r, v

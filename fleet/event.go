@@ -1,10 +1,41 @@
 package fleet
 
-import "time"
+import (
+	"fmt"
+	"time"
+)
 
 // Event kinds.
 var EventKinds = []string{"hard_landing", "crash", "prop_strike", "overdischarge",
 	"overcurrent", "pack_swelling", "overtemp", "firmware_change", "note", EventFlownNotReady}
+
+// GroundingEventKinds are the events after which the airframe (or pack)
+// must not fly until a technician's work record resolves them. The kind
+// flown_not_ready records a flight made while not ready.
+var GroundingEventKinds = []string{"hard_landing", "crash", "prop_strike", "flown_not_ready", "pack_swelling"}
+
+// Grounds reports whether an event of this kind needs a technician's work
+// record to be resolved.
+func Grounds(kind string) bool { return oneOf(kind, GroundingEventKinds) }
+
+// CheckEventEdit applies who may change an event: pilots only events they
+// recorded themselves (not ones the log analysis detected); nobody resolves
+// a grounding event by editing it — a technician's work record does. role
+// is empty for the command line (the operator at the console).
+func CheckEventEdit(e *Event, role Role, keyID string, resolving bool) error {
+	if role != "" && !role.AtLeast(RoleTechnician) && (e.Detected || e.CreatedBy == nil || *e.CreatedBy != keyID) {
+		return Errorf(EFORBIDDEN, "pilots edit only events they recorded; ask a technician")
+	}
+	if resolving && Grounds(e.Kind) {
+		if role != "" && !role.AtLeast(RoleTechnician) {
+			return &Error{Code: EFORBIDDEN, Field: "resolved",
+				Message: fmt.Sprintf("a %s grounds the airframe: a technician resolves it with a work record; pilots may add notes", e.Kind)}
+		}
+		return &Error{Code: EUNPROCESSABLE, Field: "resolved",
+			Message: fmt.Sprintf("a %s grounds the airframe: resolve it with a work record (POST /v1/work-records with resolves)", e.Kind)}
+	}
+	return nil
+}
 
 // Event severities.
 var Severities = []string{"info", "warning", "critical"}
@@ -22,7 +53,8 @@ type Event struct {
 	ResolvedAt *time.Time `json:"resolved_at"`
 	Resolution *string    `json:"resolution"`
 	ResolvedBy *string    `json:"resolved_by"`
-	Detected   bool       `json:"detected"` // opened by the log analysis, not a person
+	Detected   bool       `json:"detected"`   // opened by the log analysis, not a person
+	CreatedBy  *string    `json:"created_by"` // the key that recorded it (null from the command line)
 	Version    int        `json:"version"`
 	CreatedAt  time.Time  `json:"created_at"`
 }

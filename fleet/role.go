@@ -25,8 +25,10 @@ var Roles = []Role{RoleViewer, RolePilot, RoleTechnician, RoleAdmin}
 
 // APIKey is a stored key; the token itself is never stored.
 type APIKey struct {
-	ID        string     `json:"id"`
-	Name      string     `json:"name"`
+	ID   string `json:"id"`
+	Name string `json:"name"`
+	// Person is who holds the key: a flight's pilot defaults to them.
+	Person    string     `json:"person"`
 	Role      Role       `json:"role"`
 	CreatedAt time.Time  `json:"created_at"`
 	RevokedAt *time.Time `json:"revoked_at"`

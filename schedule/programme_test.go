@@ -240,13 +240,8 @@ func TestOnEvents(t *testing.T) {
 		}
 	}
 
-	resolved := true
-	for _, e := range []*fleet.Event{ev, sw} {
-		if _, err := b.db.UpdateEvent(b.ctx, e.ID, e.Version, store.EventPatch{Resolved: &resolved,
-			Resolution: sp("inspected, no damage")}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	// Grounding events are resolved by a technician's work record.
+	b.work(fleet.WorkRecord{Action: "inspect", Work: "inspected, no damage", AirframeID: &a.ID, Resolves: []string{ev.ID, sw.ID}})
 	b.recompute(a, pk)
 	b.wantStatus(b.item(landing, a.ID), fleet.DueOK)
 	b.wantStatus(b.item(swell, pk.ID), fleet.DueOK)

@@ -96,7 +96,6 @@ func TestReadyAirframe(t *testing.T) {
 // block.
 func TestReadinessCodes(t *testing.T) {
 	b := newBench(t, false)
-	resolved := true
 	cases := []struct {
 		name     string
 		blockers []string
@@ -131,10 +130,7 @@ func TestReadinessCodes(t *testing.T) {
 				b.event("crash", a, nil, b.ago(time.Hour))
 				// A resolved hard landing no longer blocks.
 				e := b.event("hard_landing", a, nil, b.ago(3*time.Hour))
-				if _, err := b.db.UpdateEvent(b.ctx, e.ID, e.Version, store.EventPatch{Resolved: &resolved,
-					Resolution: sp("inspected")}); err != nil {
-					b.t.Fatal(err)
-				}
+				b.work(fleet.WorkRecord{Action: "inspect", Work: "inspected", AirframeID: &a.ID, Resolves: []string{e.ID}})
 				return []*fleet.Part{pk}
 			}},
 		{"empty position", []string{fleet.ReadyEmptyPosition}, nil,

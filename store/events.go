@@ -9,12 +9,12 @@ import (
 )
 
 const eventCols = `id, at, kind, severity, airframe_id, part_id, flight_id, detail, resolved_at, resolution,
-	resolved_by, detected, version, created_at`
+	resolved_by, detected, created_by, version, created_at`
 
 func scanEvent(row pgx.Row) (*fleet.Event, error) {
 	var e fleet.Event
 	err := row.Scan(&e.ID, &e.At, &e.Kind, &e.Severity, &e.AirframeID, &e.PartID, &e.FlightID, &e.Detail,
-		&e.ResolvedAt, &e.Resolution, &e.ResolvedBy, &e.Detected, &e.Version, &e.CreatedAt)
+		&e.ResolvedAt, &e.Resolution, &e.ResolvedBy, &e.Detected, &e.CreatedBy, &e.Version, &e.CreatedAt)
 	if err != nil {
 		return nil, err
 	}
@@ -43,9 +43,9 @@ func (db *DB) CreateEvent(ctx context.Context, e *fleet.Event) (*fleet.Event, er
 
 func insertEvent(ctx context.Context, tx pgx.Tx, e *fleet.Event) (*fleet.Event, error) {
 	out, err := scanEvent(tx.QueryRow(ctx, `
-		INSERT INTO events (id, at, kind, severity, airframe_id, part_id, flight_id, detail, detected)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9) RETURNING `+eventCols,
-		newID(), e.At, e.Kind, e.Severity, e.AirframeID, e.PartID, e.FlightID, e.Detail, e.Detected))
+		INSERT INTO events (id, at, kind, severity, airframe_id, part_id, flight_id, detail, detected, created_by)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) RETURNING `+eventCols,
+		newID(), e.At, e.Kind, e.Severity, e.AirframeID, e.PartID, e.FlightID, e.Detail, e.Detected, actingKey(ctx)))
 	if err != nil {
 		return nil, err
 	}
@@ -110,6 +110,10 @@ func (db *DB) UpdateEvent(ctx context.Context, id string, version int, p EventPa
 		}
 		if before.Version != version {
 			return versionMismatch()
+		}
+		a := actorFrom(ctx)
+		if err := fleet.CheckEventEdit(before, a.Role, a.KeyID, p.Resolved != nil && *p.Resolved && before.ResolvedAt == nil); err != nil {
+			return err
 		}
 		e := clone(before)
 		if p.Detail != nil {

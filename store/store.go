@@ -117,6 +117,8 @@ type Actor struct {
 	ClientRequestID string
 	Method          string
 	Route           string
+	// Role is the key's role; empty for the command line.
+	Role fleet.Role
 }
 
 type actorKey struct{}
@@ -129,6 +131,14 @@ func WithActor(ctx context.Context, a Actor) context.Context {
 func actorFrom(ctx context.Context) Actor {
 	a, _ := ctx.Value(actorKey{}).(Actor)
 	return a
+}
+
+// actingKey is the acting key's id, or nil for the command line.
+func actingKey(ctx context.Context) *string {
+	if a := actorFrom(ctx); a.KeyID != "" {
+		return &a.KeyID
+	}
+	return nil
 }
 
 func newID() string { return uuid.Must(uuid.NewV7()).String() }

@@ -16,7 +16,7 @@ func (c *cli) keyCmd() *cobra.Command {
 }
 
 func (c *cli) keyCreateCmd() *cobra.Command {
-	var name, role string
+	var name, person, role string
 	cmd := &cobra.Command{
 		Use:   "create --name N --role R",
 		Short: "Create an API key and print its token alone on stdout",
@@ -32,11 +32,15 @@ Roles: viewer (reads), pilot (+ flights, events, pack checks), technician
 			return nil
 		},
 	}
-	cmd.Flags().StringVar(&name, "name", "", "who or what holds the key")
+	cmd.Flags().StringVar(&name, "name", "", "what the key is called")
+	cmd.Flags().StringVar(&person, "person", "", "the person who holds it (a flight's pilot defaults to them; default: the name)")
 	cmd.Flags().StringVar(&role, "role", "", "viewer, pilot, technician or admin")
 	return c.tool(cmd, func(ctx context.Context, app *App, _ []string) error {
 		ctx = store.WithActor(ctx, store.Actor{Name: "command line", Method: "CLI", Route: "key create"})
-		_, token, err := app.DB.CreateKey(ctx, name, fleet.Role(role))
+		if person == "" {
+			person = name
+		}
+		_, token, err := app.DB.CreatePersonKey(ctx, name, person, fleet.Role(role))
 		if err != nil {
 			return errors.New(fleet.ErrorMessage(err) + fieldSuffix(err))
 		}
