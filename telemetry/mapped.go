@@ -154,11 +154,11 @@ func (p *mapParser) blankLine(b []byte) bool {
 // quote, else the lines up to the one that closes the last quoted field.
 func (p *mapParser) record(b []byte) ([]byte, error) {
 	p.line0 = p.line
-	p.multi = bytes.IndexByte(b, '"') >= 0
-	if !p.multi {
+	q := bytes.Count(b, []byte{'"'})
+	if p.multi = q > 0; !p.multi {
 		return b, nil
 	}
-	if p.cur = b; !quotesOpen(b, false) {
+	if p.cur = b; q%2 == 0 {
 		return b, nil
 	}
 	p.rec = append(p.rec[:0], b...)
@@ -202,9 +202,16 @@ func (p *mapParser) fields(rec []byte) ([][]byte, error) {
 	return fs, nil
 }
 
-// lineOf is the physical line of field k of the current record.
+// lineOf is the physical line of field k of the current record. Only a
+// record spanning lines needs the work: split it again noting where each
+// field starts (a refusal ends the reading, so the fields may be reused).
 func (p *mapParser) lineOf(k int) int {
-	if !p.multi || k >= len(p.sp.offs) {
+	if !p.multi || bytes.IndexByte(p.cur, '\n') < 0 {
+		return p.line0
+	}
+	p.sp.withOffs = true
+	p.sp.splitQuoted(p.cur)
+	if k >= len(p.sp.offs) {
 		return p.line0
 	}
 	return p.line0 + bytes.Count(p.cur[:p.sp.offs[k]], []byte{'\n'})

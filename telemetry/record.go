@@ -17,8 +17,11 @@ const whyUnclosed = "a quoted field is not closed"
 type splitter struct {
 	delim  byte
 	fields [][]byte
-	offs   []int // byte offset of each field in the record, for line numbers
-	buf    []byte
+	// offs holds the byte offset of each field in the record when withOffs
+	// is set (for the line number of a refusal; not needed otherwise).
+	offs     []int
+	withOffs bool
+	buf      []byte
 }
 
 // split cuts a record without quotes: the fast path every plain row takes.
@@ -77,7 +80,9 @@ func (s *splitter) splitQuoted(b []byte) ([][]byte, int, string) {
 				return nil, i, "text after a closing quote (a quote inside a quoted field is written twice)"
 			}
 			s.fields = append(s.fields, field)
-			s.offs = append(s.offs, open)
+			if s.withOffs {
+				s.offs = append(s.offs, open)
+			}
 		} else {
 			j := bytes.IndexByte(b[i:], s.delim)
 			end := len(b)
@@ -88,7 +93,9 @@ func (s *splitter) splitQuoted(b []byte) ([][]byte, int, string) {
 				return nil, i + q, "a quote inside an unquoted field (quote the whole field and write the quote twice)"
 			}
 			s.fields = append(s.fields, b[start:end])
-			s.offs = append(s.offs, start)
+			if s.withOffs {
+				s.offs = append(s.offs, start)
+			}
 			i = end
 		}
 		if i >= len(b) {
