@@ -206,17 +206,25 @@ type DueItem struct {
 	Grounding    bool         `json:"grounding"`
 	Reason       string       `json:"reason"`
 	ForecastDate *time.Time   `json:"forecast_date"`
-	ComputedAt   time.Time    `json:"computed_at"`
+	// ForecastReason says why there is no forecast date (ForecastBeyondHorizon
+	// or ForecastNoUse); nil with a date, or when no limit has a rate.
+	ForecastReason *string   `json:"forecast_reason"`
+	ComputedAt     time.Time `json:"computed_at"`
 }
 
 // LimitUsage is the use of one limit since the rule was last done.
 type LimitUsage struct {
-	Limit     string     `json:"limit"` // flight_hours, flights, days, ...
-	Used      float64    `json:"used"`
-	Max       float64    `json:"max"`
-	Remaining float64    `json:"remaining"`
-	Fraction  float64    `json:"fraction"`
-	Forecast  *time.Time `json:"forecast_date"`
+	Limit     string  `json:"limit"` // flight_hours, flights, days, ...
+	Used      float64 `json:"used"`
+	Max       float64 `json:"max"`
+	Remaining float64 `json:"remaining"`
+	Fraction  float64 `json:"fraction"`
+	// RatePerDay is the trailing use rate the forecast rests on (nil for a
+	// limit with no rate, such as a trend rise).
+	RatePerDay *float64   `json:"rate_per_day"`
+	Forecast   *time.Time `json:"forecast_date"`
+	// ForecastReason says why there is no forecast date (see DueItem).
+	ForecastReason *string `json:"forecast_reason"`
 }
 
 // ReadinessItem is one blocker or warning of a readiness answer.

@@ -19,7 +19,8 @@ type MotorView struct {
 	RemainingEquivHours    *float64        `json:"remaining_equiv_hours"` // run hours left at recent duty
 	UtilisationHoursPerDay float64         `json:"utilisation_hours_per_day"`
 	ForecastDate           *time.Time      `json:"forecast_date"`
-	Since                  *time.Time      `json:"since"` // counting from (first fit)
+	ForecastReason         *string         `json:"forecast_reason"` // why forecast_date is null: beyond_horizon, no_recent_use
+	Since                  *time.Time      `json:"since"`           // counting from (first fit)
 	Model                  BearingSettings `json:"model"`
 	Series                 []SeriesPoint   `json:"series"` // cumulative consumed fraction per flight
 }
@@ -147,6 +148,9 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 	}
 	if st.RateKnown {
 		mv.RemainingEquivHours = ptr(st.RemainingEquivHours)
+	}
+	if st.ForecastReason != "" {
+		mv.ForecastReason = &st.ForecastReason
 	}
 	for i, pt := range st.Series {
 		mv.Series[i] = SeriesPoint{At: pt.At, Value: pt.Consumed}

@@ -46,10 +46,13 @@ type CapacityPoint struct {
 // and the crossing of each service rule's limit on this pack.
 type ForecastView struct {
 	*wear.TrendForecast
-	CyclesPerDay float64       `json:"cycles_per_day"`
-	Date         *time.Time    `json:"date"`
-	IntervalDate [2]*time.Time `json:"interval_dates"`
-	Limits       []LimitView   `json:"limits"`
+	CyclesPerDay float64    `json:"cycles_per_day"`
+	Date         *time.Time `json:"date"`
+	// ForecastReason says why Date is null (fleet.ForecastBeyondHorizon or
+	// fleet.ForecastNoUse); an interval end past the horizon is null too.
+	ForecastReason *string       `json:"forecast_reason"`
+	IntervalDate   [2]*time.Time `json:"interval_dates"`
+	Limits         []LimitView   `json:"limits"`
 }
 
 // LimitView is the crossing of one rule limit (soh_below_pct or
@@ -57,7 +60,8 @@ type ForecastView struct {
 type LimitView struct {
 	Limit float64 `json:"limit_pct"`
 	wear.Crossing
-	Date *time.Time `json:"date"`
+	Date           *time.Time `json:"date"`
+	ForecastReason *string    `json:"forecast_reason"` // why Date is null, as in ForecastView
 }
 
 // ResistanceView is the resistance trend; Forecast is the rise (% over
@@ -286,14 +290,18 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 // recent usage rate.
 func newForecastView(fc *wear.TrendForecast, now time.Time, cycles, perDay float64) *ForecastView {
 	v := &ForecastView{TrendForecast: fc, CyclesPerDay: perDay, Limits: []LimitView{}}
-	v.Date = cycleDate(now, cycles, fc.FittedSustained, perDay)
-	v.IntervalDate = [2]*time.Time{cycleDate(now, cycles, fc.IntervalFrom, perDay), cycleDate(now, cycles, fc.IntervalTo, perDay)}
+	v.Date, v.ForecastReason = cycleDate(now, cycles, fc.FittedSustained, perDay)
+	from, _ := cycleDate(now, cycles, fc.IntervalFrom, perDay)
+	to, _ := cycleDate(now, cycles, fc.IntervalTo, perDay)
+	v.IntervalDate = [2]*time.Time{from, to}
 	return v
 }
 
 // limit adds the crossing of one rule limit.
 func (v *ForecastView) limit(pct float64, c wear.Crossing, now time.Time, cycles, perDay float64) {
-	v.Limits = append(v.Limits, LimitView{Limit: pct, Crossing: c, Date: cycleDate(now, cycles, c.FittedSustained, perDay)})
+	l := LimitView{Limit: pct, Crossing: c}
+	l.Date, l.ForecastReason = cycleDate(now, cycles, c.FittedSustained, perDay)
+	v.Limits = append(v.Limits, l)
 }
 
 // Limit returns the crossing of the rule limit pct, if the view has it.
@@ -309,11 +317,17 @@ func (v *ForecastView) Limit(pct float64) *LimitView {
 	return nil
 }
 
-func cycleDate(now time.Time, cycles float64, at *float64, perDay float64) *time.Time {
+// cycleDate dates a forecast cycle (nil: none forecast, no date and no
+// reason), with the reason when it has no date.
+func cycleDate(now time.Time, cycles float64, at *float64, perDay float64) (*time.Time, *string) {
 	if at == nil {
-		return nil
+		return nil, nil
 	}
-	return wear.CycleDate(now, cycles, *at, perDay)
+	d, why := wear.CycleDate(now, cycles, *at, perDay)
+	if why == "" {
+		return d, nil
+	}
+	return d, &why
 }
 
 // packRuleLimits are the distinct limits of the enabled pack rules that

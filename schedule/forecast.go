@@ -84,23 +84,26 @@ func (p *Programme) PartsForecast(ctx context.Context, days int) (*Forecast, err
 	return f, nil
 }
 
+// maxRepeats bounds the repeats of one item within the horizon: a part
+// replaced a million times in a horizon of at most two years says the rate
+// is wrong; the count saturates there rather than overflow.
+const maxRepeats = 1_000_000
+
 // repeats counts how many more times a usage limit comes round before end
-// after the first replacement, at the rate implied by its forecast.
+// after the first replacement, at the limit's trailing rate.
 func repeats(it *fleet.DueItem, now, end time.Time) int {
-	best := 0
+	best := 0.0
 	for _, u := range it.Usage {
-		if u.Forecast == nil || u.Remaining <= 0 || !u.Forecast.After(now) || u.Limit == "soh_below_pct" || u.Limit == "ir_rise_pct" {
+		if u.Forecast == nil || u.RatePerDay == nil || !(*u.RatePerDay > 0) || u.Remaining <= 0 ||
+			u.Limit == "soh_below_pct" || u.Limit == "ir_rise_pct" {
 			continue
 		}
-		perDay := u.Remaining / (u.Forecast.Sub(now).Hours() / 24)
-		if perDay <= 0 {
-			continue
-		}
-		cycle := u.Max / perDay // days for a fresh part to reach the limit
-		left := end.Sub(*u.Forecast).Hours() / 24
-		if n := int(math.Floor(left / cycle)); n > best {
+		first := math.Max(0, u.Forecast.Sub(now).Hours()/24)
+		left := end.Sub(now).Hours()/24 - first
+		// A fresh part lasts Max / rate days: floor(left / (Max / rate)).
+		if n := math.Floor(left * *u.RatePerDay / u.Max); n > best {
 			best = n
 		}
 	}
-	return best
+	return int(math.Min(best, maxRepeats))
 }

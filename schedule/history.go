@@ -124,41 +124,47 @@ func (p *Programme) evaluate(ctx context.Context, r *fleet.ServiceRule, s store.
 	it := &fleet.DueItem{RuleID: r.ID, RuleName: r.Name, Action: r.Action, SubjectKind: s.Kind, SubjectID: s.ID,
 		Subject: s.Name, AirframeID: s.AirframeID, PartNumber: s.PartNumber, LastDoneAt: last, Since: &since,
 		Usage: []fleet.LimitUsage{}, Grounding: r.Grounding, ComputedAt: at}
-	// add records one limit; perDay is the trailing use rate (0: no forecast).
-	add := func(name string, used, max, perDay float64) {
-		lu := fleet.LimitUsage{Limit: name, Used: used, Max: max, Remaining: math.Max(0, max-used), Fraction: used / max}
-		if lu.Fraction >= 1 {
-			lu.Forecast = &at
-		} else if perDay > 0 {
-			t := at.Add(time.Duration(lu.Remaining / perDay * 24 * float64(time.Hour)))
-			lu.Forecast = &t
-		}
-		it.Usage = append(it.Usage, lu)
+	add := func(l limit) { it.Usage = append(it.Usage, l.usage(at)) }
+	rated := func(name string, used, max, perDay float64) {
+		add(limit{name: name, used: used, max: max, perDay: &perDay})
 	}
 	if r.FlightHours != nil {
-		add("flight_hours", u.hours, *r.FlightHours, u.recentHours/days)
+		rated("flight_hours", u.hours, *r.FlightHours, u.recentHours/days)
 	}
 	if r.Flights != nil {
-		add("flights", u.flights, float64(*r.Flights), u.recentFlights/days)
+		rated("flights", u.flights, float64(*r.Flights), u.recentFlights/days)
 	}
 	if r.Days != nil {
-		add("days", math.Max(0, at.Sub(since).Hours()/24), float64(*r.Days), 1)
+		rated("days", math.Max(0, at.Sub(since).Hours()/24), float64(*r.Days), 1)
 	}
 	if r.Revolutions != nil {
-		add("revolutions", u.revolutions, *r.Revolutions, u.recentRevolutions/days)
+		rated("revolutions", u.revolutions, *r.Revolutions, u.recentRevolutions/days)
 	}
 	if r.Cycles != nil {
-		add("cycles", u.cycles, *r.Cycles, u.recentCycles/days)
+		rated("cycles", u.cycles, *r.Cycles, u.recentCycles/days)
 	}
 	if err := p.healthLimits(ctx, r, s, since, at, past, add); err != nil {
 		return nil, err
 	}
+	reasons := map[string]bool{}
 	for _, lu := range it.Usage {
 		if lu.Fraction > it.Fraction {
 			it.Fraction, it.Reason = lu.Fraction, fmt.Sprintf("%s %.4g of %.4g", lu.Limit, lu.Used, lu.Max)
 		}
 		if lu.Forecast != nil && (it.ForecastDate == nil || lu.Forecast.Before(*it.ForecastDate)) {
 			it.ForecastDate = lu.Forecast
+		}
+		if lu.ForecastReason != nil {
+			reasons[*lu.ForecastReason] = true
+		}
+	}
+	if it.ForecastDate == nil {
+		// No date: beyond the horizon if any limit is, else no use if any has none.
+		for _, why := range []string{fleet.ForecastBeyondHorizon, fleet.ForecastNoUse} {
+			if reasons[why] {
+				it.ForecastReason = &why
+				break
+			}
 		}
 	}
 	if ev := h.openEvent(since, at, past); ev != nil {
@@ -176,13 +182,48 @@ func (p *Programme) evaluate(ctx context.Context, r *fleet.ServiceRule, s store.
 	return it, nil
 }
 
+// limit is one limit of a rule on a subject and how its forecast comes:
+// from a trailing use rate (perDay), from a date forecast elsewhere (a
+// pack's fade, with its reason when it has none), or not at all.
+type limit struct {
+	name      string
+	used, max float64
+	perDay    *float64
+	date      *time.Time
+	reason    string
+}
+
+// usage is the limit's use at the moment at, with its forecast: at once
+// when used up, else saturating at the horizon (fleet.ForecastAt).
+func (l limit) usage(at time.Time) fleet.LimitUsage {
+	lu := fleet.LimitUsage{Limit: l.name, Used: l.used, Max: l.max, Remaining: math.Max(0, l.max-l.used),
+		Fraction: l.used / l.max, RatePerDay: l.perDay}
+	why := l.reason
+	switch {
+	case lu.Fraction >= 1:
+		lu.Forecast, why = &at, ""
+	case l.perDay != nil:
+		lu.Forecast, why = fleet.ForecastAt(at, lu.Remaining, *l.perDay)
+	case l.date != nil:
+		lu.Forecast = l.date
+		if d := l.date.Sub(at).Hours() / 24; d > 0 {
+			rate := lu.Remaining / d // the rate that reaches the limit on that date
+			lu.RatePerDay = &rate
+		}
+	}
+	if why != "" {
+		lu.ForecastReason = &why
+	}
+	return lu
+}
+
 // healthLimits adds the limits read from the health views: bearing life
 // used since last done, state of health, resistance rise, airframe trends.
 // As of a past moment the pack and trend views are computed from the
 // records before it, and bearing life is read off the motor's cumulative
 // series up to it.
 func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s store.Subject, since, at time.Time, past bool,
-	add func(string, float64, float64, float64)) error {
+	add func(limit)) error {
 	if r.BearingPct == nil && r.SoHBelowPct == nil && r.IRRisePct == nil && r.EfficiencyRisePct == nil && r.VibrationRisePct == nil {
 		return nil
 	}
@@ -192,10 +233,10 @@ func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s st
 			return err
 		}
 		if r.EfficiencyRisePct != nil && tv.EfficiencyIndex != nil {
-			add("efficiency_rise_pct", math.Max(0, tv.EfficiencyIndex.RisePct), *r.EfficiencyRisePct, 0)
+			add(limit{name: "efficiency_rise_pct", used: math.Max(0, tv.EfficiencyIndex.RisePct), max: *r.EfficiencyRisePct})
 		}
 		if r.VibrationRisePct != nil && tv.Vibration != nil {
-			add("vibration_rise_pct", math.Max(0, tv.Vibration.RisePct), *r.VibrationRisePct, 0)
+			add(limit{name: "vibration_rise_pct", used: math.Max(0, tv.Vibration.RisePct), max: *r.VibrationRisePct})
 		}
 		return nil
 	}
@@ -226,27 +267,27 @@ func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s st
 			}
 			total = pt.Value
 		}
-		recent := (total - math.Max(before, recentFrom)) * 100
-		add("bearing_pct", (total-before)*100, *r.BearingPct, recent/(p.Window.Hours()/24))
+		perDay := (total - math.Max(before, recentFrom)) * 100 / (p.Window.Hours() / 24)
+		add(limit{name: "bearing_pct", used: (total - before) * 100, max: *r.BearingPct, perDay: &perDay})
 	}
 	if k := v.Pack; k != nil {
 		// The forecast's crossing of the rule's own limit, when the health
-		// view has it, gives the rate that reaches the limit on its date.
-		rate := func(left float64, l *health.LimitView) float64 {
-			if l == nil || l.Date == nil || !(left > 0) {
-				return 0
+		// view has it, dates the limit (or says why it has no date).
+		dated := func(name string, used, max float64, l *health.LimitView) limit {
+			out := limit{name: name, used: used, max: max}
+			if l != nil {
+				out.date = l.Date
+				if l.ForecastReason != nil {
+					out.reason = *l.ForecastReason
+				}
 			}
-			if d := l.Date.Sub(at).Hours() / 24; d > 0 {
-				return left / d
-			}
-			return 0
+			return out
 		}
 		if r.SoHBelowPct != nil && k.SoH != nil {
-			add("soh_below_pct", 100-*k.SoH*100, 100-*r.SoHBelowPct, rate(*k.SoH*100-*r.SoHBelowPct, k.Forecast.Limit(*r.SoHBelowPct)))
+			add(dated("soh_below_pct", 100-*k.SoH*100, 100-*r.SoHBelowPct, k.Forecast.Limit(*r.SoHBelowPct)))
 		}
 		if r.IRRisePct != nil && k.Resistance != nil {
-			used := math.Max(0, k.Resistance.RisePct)
-			add("ir_rise_pct", used, *r.IRRisePct, rate(*r.IRRisePct-used, k.Resistance.Forecast.Limit(*r.IRRisePct)))
+			add(dated("ir_rise_pct", math.Max(0, k.Resistance.RisePct), *r.IRRisePct, k.Resistance.Forecast.Limit(*r.IRRisePct)))
 		}
 	}
 	return nil

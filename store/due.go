@@ -178,11 +178,11 @@ func (db *DB) ReplaceDue(ctx context.Context, airframeID string, subjects []stri
 				return err
 			}
 			copyRows = append(copyRows, []any{it.RuleID, it.SubjectKind, it.SubjectID, it.AirframeID, it.PartNumber,
-				it.LastDoneAt, it.Since, usage, it.Fraction, it.Status, it.Grounding, it.Reason, it.ForecastDate, it.ComputedAt})
+				it.LastDoneAt, it.Since, usage, it.Fraction, it.Status, it.Grounding, it.Reason, it.ForecastDate, it.ForecastReason, it.ComputedAt})
 		}
 		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"due_items"}, []string{"rule_id", "subject_kind", "subject_id",
 			"airframe_id", "part_number", "last_done_at", "since", "usage", "fraction", "status", "grounding", "reason",
-			"forecast_date", "computed_at"}, pgx.CopyFromRows(copyRows)); err != nil {
+			"forecast_date", "forecast_reason", "computed_at"}, pgx.CopyFromRows(copyRows)); err != nil {
 			return err
 		}
 		if onChange == nil {
@@ -216,7 +216,7 @@ func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, erro
 	rows, err := db.pool.Query(ctx, `
 		SELECT d.rule_id, r.name, r.action, d.subject_kind, d.subject_id,
 			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
-			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.computed_at
+			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.forecast_reason, d.computed_at
 		FROM due_items d JOIN service_rules r ON r.id = d.rule_id
 		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
 		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id
@@ -233,7 +233,7 @@ func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, erro
 		var usage []byte
 		if err := r.Scan(&d.RuleID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
 			&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
-			&d.ForecastDate, &d.ComputedAt); err != nil {
+			&d.ForecastDate, &d.ForecastReason, &d.ComputedAt); err != nil {
 			return nil, err
 		}
 		return &d, json.Unmarshal(usage, &d.Usage)

@@ -225,10 +225,12 @@ type BearingStatus struct {
 	RemainingEquivHours    float64
 	UtilisationHoursPerDay float64 // run hours per day over the trailing window
 	// ForecastDate is now + remaining / utilisation (now when used up); nil
-	// when there is no utilisation in the window, no known rate, or the date
-	// is beyond MaxForecastDays.
-	ForecastDate *time.Time
-	Series       []BearingPoint // cumulative consumed fraction per flight, oldest first
+	// when there is no utilisation in the window or no known rate
+	// (ForecastReason fleet.ForecastNoUse), or when the date is beyond the
+	// forecast horizon (fleet.ForecastBeyondHorizon).
+	ForecastDate   *time.Time
+	ForecastReason string
+	Series         []BearingPoint // cumulative consumed fraction per flight, oldest first
 }
 
 // Status sums the damage of the flights and forecasts when the bearings are
@@ -273,25 +275,12 @@ func (m BearingModel) Status(flights []MotorFlight, now time.Time, window time.D
 		st.RemainingEquivHours = left / st.RecentDamagePerHour
 	}
 	st.UtilisationHoursPerDay = recentH / (window.Hours() / 24)
-	switch {
-	case left == 0:
-		st.ForecastDate = addDays(now, 0) // used up: due now
-	case st.RateKnown && st.UtilisationHoursPerDay > 0 && st.RecentDamagePerHour > 0:
-		st.ForecastDate = addDays(now, st.RemainingEquivHours/st.UtilisationHoursPerDay)
+	// The life used a day at recent duty and utilisation; a rate not known
+	// is no rate.
+	perDay := 0.0
+	if st.RateKnown {
+		perDay = st.RecentDamagePerHour * st.UtilisationHoursPerDay
 	}
+	st.ForecastDate, st.ForecastReason = fleet.ForecastAt(now, left, perDay)
 	return st, nil
-}
-
-// MaxForecastDays bounds forecast dates (100 years); beyond it a forecast
-// carries no meaning and would overflow time.Duration.
-const MaxForecastDays = 36525
-
-// addDays returns now + days, or nil when days is not finite or is beyond
-// MaxForecastDays.
-func addDays(now time.Time, days float64) *time.Time {
-	if !finite(days) || days > MaxForecastDays {
-		return nil
-	}
-	t := now.Add(time.Duration(math.Max(0, days) * 24 * float64(time.Hour)))
-	return &t
 }

@@ -166,3 +166,36 @@ func TestBearingStatus(t *testing.T) {
 		t.Errorf("new motor: %+v", st)
 	}
 }
+
+// Bearing forecasts from extreme rates saturate. In relative mode one hour
+// at the reference duty uses 1/RatedHours of the life (the interval's
+// definition), so one such hour in the 30-day window makes the rate
+// 1/(30 RatedHours) a day. At 1e-12 a day the rest of the life is 1e12 days
+// away: beyond the 50-year horizon, no date. At 1e12 a day the life is used
+// up: due now. With the only flight before the window there is no rate.
+func TestBearingForecastRates(t *testing.T) {
+	now := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
+	hour := []SpectrumBin{{6000, 3600, 360000, 5}}
+	for _, c := range []struct {
+		name     string
+		rate     float64
+		daysAgo  int
+		date     bool
+		why      string
+		consumed bool
+	}{
+		{"no use in the window", 1e-3, 45, false, fleet.ForecastNoUse, false},
+		{"1e-12 a day", 1e-12, 3, false, fleet.ForecastBeyondHorizon, false},
+		{"1e12 a day", 1e12, 3, true, "", true},
+	} {
+		m := BearingModel{Rated: RatedInterval{Hours: 1 / (30 * c.rate), RPM: 6000, ThrustN: 5}}
+		st, err := m.Status([]MotorFlight{{At: now.AddDate(0, 0, -c.daysAgo), Bins: hour}}, now, 0)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		if (st.ForecastDate != nil) != c.date || st.ForecastReason != c.why || (st.ConsumedFraction >= 1) != c.consumed ||
+			(st.ForecastDate != nil && !st.ForecastDate.Equal(now)) {
+			t.Errorf("%s: forecast %v (%q), consumed %g", c.name, st.ForecastDate, st.ForecastReason, st.ConsumedFraction)
+		}
+	}
+}

@@ -43,12 +43,11 @@ func ObservedCrossing(points []TrendPoint, threshold float64) (first, sustained 
 
 // CycleDate converts a forecast cycle to a date at a usage rate of
 // cyclesPerDay (e.g. equivalent full cycles per day over a trailing window):
-// nil when there is no usage; now when the cycle is already reached.
-func CycleDate(now time.Time, currentCycles, targetCycle, cyclesPerDay float64) *time.Time {
-	if !(cyclesPerDay > 0) || !finite(cyclesPerDay) {
-		return nil
-	}
-	return addDays(now, (targetCycle-currentCycles)/cyclesPerDay)
+// now when the cycle is already reached; else no date and the reason when
+// there is no usage or the date is beyond the forecast horizon
+// (fleet.ForecastAt).
+func CycleDate(now time.Time, currentCycles, targetCycle, cyclesPerDay float64) (*time.Time, string) {
+	return fleet.ForecastAt(now, targetCycle-currentCycles, cyclesPerDay)
 }
 
 func ptr(v float64) *float64 { return &v }

@@ -2,6 +2,7 @@ package wear
 
 import (
 	"encoding/csv"
+	"github.com/rotorwright/rotorwright/fleet"
 	"os"
 	"strconv"
 	"testing"
@@ -148,13 +149,23 @@ func TestForecastRefuses(t *testing.T) {
 func TestCycleDate(t *testing.T) {
 	now := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
 	// 40 cycles to go at 0.5 cycles/day -> 80 days (computed).
-	if d := CycleDate(now, 100, 140, 0.5); d == nil || !d.Equal(now.AddDate(0, 0, 80)) {
-		t.Errorf("date = %v", d)
+	if d, why := CycleDate(now, 100, 140, 0.5); d == nil || !d.Equal(now.AddDate(0, 0, 80)) || why != "" {
+		t.Errorf("date = %v (%s)", d, why)
 	}
-	if d := CycleDate(now, 100, 140, 0); d != nil {
-		t.Errorf("no usage: date = %v, want nil", d)
+	if d, why := CycleDate(now, 150, 140, 1); d == nil || !d.Equal(now) || why != "" {
+		t.Errorf("already past: date = %v (%s), want now", d, why)
 	}
-	if d := CycleDate(now, 150, 140, 1); d == nil || !d.Equal(now) {
-		t.Errorf("already past: date = %v, want now", d)
+	// Extreme rates saturate: 40 cycles at 1e-12 a day is 4e13 days, beyond
+	// the 50-year horizon (no date, never a wrapped one); at 1e12 a day it is
+	// 4e-11 days (3.456 microseconds) on; at 0 there is no date.
+	for _, c := range []struct {
+		rate float64
+		date bool
+		why  string
+	}{{0, false, fleet.ForecastNoUse}, {1e-12, false, fleet.ForecastBeyondHorizon}, {1e12, true, ""}} {
+		d, why := CycleDate(now, 100, 140, c.rate)
+		if (d != nil) != c.date || why != c.why || (d != nil && d.Sub(now) != 3456*time.Nanosecond) {
+			t.Errorf("rate %g: date %v (%q), want a date %v (%q)", c.rate, d, why, c.date, c.why)
+		}
 	}
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -33,8 +34,11 @@ func (c *cli) dueCmd() *cobra.Command {
 				continue
 			}
 			fc, g := "", ""
-			if d.ForecastDate != nil {
+			switch {
+			case d.ForecastDate != nil:
 				fc = " / " + d.ForecastDate.Format("2006-01-02")
+			case d.ForecastReason != nil: // beyond horizon, no recent use
+				fc = " / " + strings.ReplaceAll(*d.ForecastReason, "_", " ")
 			}
 			if d.Grounding {
 				g = "grounding"
