@@ -28,12 +28,14 @@ type flightInput struct {
 	SiteElevationM *float64  `json:"site_elevation_m"`
 	Notes          string    `json:"notes"`
 	OverrideReason *string   `json:"override_reason"`
+	Software       *string   `json:"software"`
 }
 
 // flight turns the input into a domain flight, checking the ids.
 func (in *flightInput) flight() (*fleet.Flight, error) {
 	f := &fleet.Flight{Pilot: in.Pilot, TakeoffAt: in.TakeoffAt, LandingAt: in.LandingAt,
-		TakeoffMassG: in.TakeoffMassG, SiteElevationM: in.SiteElevationM, Notes: in.Notes, OverrideReason: in.OverrideReason}
+		TakeoffMassG: in.TakeoffMassG, SiteElevationM: in.SiteElevationM, Notes: in.Notes, OverrideReason: in.OverrideReason,
+		Software: in.Software}
 	if in.AirframeID != "" { // missing is refused by validation, or filled from a log
 		id, err := store.ParseID("airframe_id", in.AirframeID)
 		if err != nil {

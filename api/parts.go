@@ -16,7 +16,9 @@ var partWritable = []string{"serial", "part_number", "lot", "maker", "acquired_o
 
 func (s *Server) createPart(c *gin.Context) {
 	var p fleet.Part
-	if err := s.decodeWritable(c, &p, append(partWritable, "kind")...); err != nil {
+	// software_version is set on creation; later only an update work record
+	// changes it, so that its history is kept.
+	if err := s.decodeWritable(c, &p, append(partWritable, "kind", "software_version")...); err != nil {
 		s.fail(c, err)
 		return
 	}

@@ -92,6 +92,21 @@ type workInput struct {
 	FittedPartID  *string    `json:"fitted_part_id"`
 	Resolves      []string   `json:"resolves"`
 	CorrectsID    *string    `json:"corrects_id"`
+	// sign-off (14 CFR 43.9 / 43.11) and software updates
+	CertificateNumber *string            `json:"certificate_number"`
+	CertificateKind   *string            `json:"certificate_kind"`
+	ReturnToService   *string            `json:"return_to_service"`
+	Discrepancies     []discrepancyInput `json:"discrepancies"`
+	Clears            []string           `json:"clears"`
+	SoftwareFrom      *string            `json:"software_from"`
+	SoftwareTo        *string            `json:"software_to"`
+}
+
+// discrepancyInput is one discrepancy a work record found.
+type discrepancyInput struct {
+	Description string  `json:"description"`
+	Grounding   bool    `json:"grounding"`
+	PartID      *string `json:"part_id"`
 }
 
 // createWorkRecord records work; a replacement swaps the part in the same
@@ -102,7 +117,9 @@ func (s *Server) createWorkRecord(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	w := &fleet.WorkRecord{Action: in.Action, Work: in.Work, PerformedBy: in.PerformedBy, ApprovedBy: in.ApprovedBy}
+	w := &fleet.WorkRecord{Action: in.Action, Work: in.Work, PerformedBy: in.PerformedBy, ApprovedBy: in.ApprovedBy,
+		CertificateNumber: in.CertificateNumber, CertificateKind: in.CertificateKind, ReturnToService: in.ReturnToService,
+		SoftwareFrom: in.SoftwareFrom, SoftwareTo: in.SoftwareTo}
 	if in.At != nil {
 		w.At = *in.At
 	}
@@ -126,6 +143,22 @@ func (s *Server) createWorkRecord(c *gin.Context) {
 			return
 		}
 		w.Resolves = append(w.Resolves, id)
+	}
+	for i, cl := range in.Clears {
+		id, err := store.ParseID("clears["+strconv.Itoa(i)+"]", cl)
+		if err != nil {
+			s.fail(c, err)
+			return
+		}
+		w.Clears = append(w.Clears, id)
+	}
+	for i, d := range in.Discrepancies {
+		part, err := optionalID("discrepancies["+strconv.Itoa(i)+"].part_id", d.PartID)
+		if err != nil {
+			s.fail(c, err)
+			return
+		}
+		w.Discrepancies = append(w.Discrepancies, &fleet.Discrepancy{Description: d.Description, Grounding: d.Grounding, PartID: part})
 	}
 	ctx := c.Request.Context()
 	out, err := s.db.CreateWorkRecord(ctx, w)

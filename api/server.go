@@ -87,6 +87,7 @@ var Routes = []Route{
 	{Method: "GET", Path: "/v1/parts/:id/health", Role: fleet.RoleViewer, handler: (*Server).partHealth},
 	{Method: "GET", Path: "/v1/parts/:id/checks", Role: fleet.RoleViewer, handler: (*Server).listPackChecks},
 	{Method: "POST", Path: "/v1/parts/:id/checks", Role: fleet.RolePilot, handler: (*Server).createPackCheck},
+	{Method: "GET", Path: "/v1/parts/:id/software", Role: fleet.RoleViewer, handler: (*Server).partSoftware},
 
 	{Method: "GET", Path: "/v1/jobs", Role: fleet.RoleViewer, handler: (*Server).listJobs},
 	{Method: "POST", Path: "/v1/jobs", Role: fleet.RoleTechnician, handler: (*Server).createJob},
@@ -125,6 +126,7 @@ var Routes = []Route{
 	{Method: "DELETE", Path: "/v1/service-rules/:id", Role: fleet.RoleAdmin, handler: (*Server).deleteRule},
 	{Method: "GET", Path: "/v1/work-records", Role: fleet.RoleViewer, handler: (*Server).listWorkRecords},
 	{Method: "POST", Path: "/v1/work-records", Role: fleet.RoleTechnician, handler: (*Server).createWorkRecord},
+	{Method: "GET", Path: "/v1/discrepancies", Role: fleet.RoleViewer, handler: (*Server).listDiscrepancies},
 	{Method: "GET", Path: "/v1/due", Role: fleet.RoleViewer, handler: (*Server).listDue},
 	{Method: "GET", Path: "/v1/airframes/:id/readiness", Role: fleet.RoleViewer, handler: (*Server).readiness},
 	{Method: "GET", Path: "/v1/forecast/parts", Role: fleet.RoleViewer, handler: (*Server).partsForecast},

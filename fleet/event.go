@@ -7,7 +7,8 @@ import (
 
 // Event kinds.
 var EventKinds = []string{"hard_landing", "crash", "prop_strike", "overdischarge",
-	"overcurrent", "pack_swelling", "overtemp", "firmware_change", "note", EventFlownNotReady}
+	"overcurrent", "pack_swelling", "overtemp", "firmware_change", "note", EventFlownNotReady,
+	"software_mismatch"}
 
 // GroundingEventKinds are the events after which the airframe (or pack)
 // must not fly until a technician's work record resolves them. The kind

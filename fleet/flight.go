@@ -26,6 +26,9 @@ type Flight struct {
 	Source         string    `json:"source"`
 	LogSHA256      *string   `json:"log_sha256"`
 	Notes          string    `json:"notes"`
+	// Software is what the flight ran, as its log's '# software:' line (or
+	// the pilot) said; a difference from the register opens an event.
+	Software *string `json:"software"`
 	// OverrideReason records why the flight went ahead although the airframe
 	// was not ready; it is kept with the flight and its audit row.
 	OverrideReason *string      `json:"override_reason"`
@@ -135,6 +138,14 @@ func (f *Flight) Validate() error {
 	}
 	if f.OverrideReason != nil {
 		if err := checkText("override_reason", *f.OverrideReason, 1, 500); err != nil {
+			return err
+		}
+	}
+	if f.Software != nil {
+		if err := checkText("software", *f.Software, 1, 200); err != nil {
+			return err
+		}
+		if _, err := ParseSoftwareReport(*f.Software); err != nil {
 			return err
 		}
 	}

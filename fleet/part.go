@@ -60,10 +60,13 @@ type Part struct {
 	Status        string          `json:"status"`
 	RetiredReason *string         `json:"retired_reason"`
 	Specs         json.RawMessage `json:"specs"`
-	Notes         string          `json:"notes"`
-	Version       int             `json:"version"`
-	CreatedAt     time.Time       `json:"created_at"`
-	UpdatedAt     time.Time       `json:"updated_at"`
+	// SoftwareVersion is the version the part runs now (software kinds only);
+	// it changes only by a work record with action update.
+	SoftwareVersion *string   `json:"software_version"`
+	Notes           string    `json:"notes"`
+	Version         int       `json:"version"`
+	CreatedAt       time.Time `json:"created_at"`
+	UpdatedAt       time.Time `json:"updated_at"`
 }
 
 // Validate checks a part's fields and its kind-specific specs.
@@ -104,6 +107,14 @@ func (p *Part) Validate() error {
 	}
 	if p.RetiredReason != nil {
 		if err := checkText("retired_reason", *p.RetiredReason, 1, 500); err != nil {
+			return err
+		}
+	}
+	if p.SoftwareVersion != nil {
+		if !p.Kind.CarriesSoftware() {
+			return FieldError("software_version", "only %v parts carry a software version", SoftwareKinds)
+		}
+		if _, err := ParseVersion("software_version", *p.SoftwareVersion); err != nil {
 			return err
 		}
 	}

@@ -145,13 +145,23 @@ type WorkRecord struct {
 	Resolves      []string  `json:"resolves"`
 	CorrectsID    *string   `json:"corrects_id"`
 	AirframeHours *float64  `json:"airframe_hours"`
-	CreatedAt     time.Time `json:"created_at"`
+	// The approver's certificate and either a return to service statement or
+	// the discrepancies found (14 CFR 43.9(a)(4), 43.11(a)(4)-(5)).
+	CertificateNumber *string        `json:"certificate_number"`
+	CertificateKind   *string        `json:"certificate_kind"`
+	ReturnToService   *string        `json:"return_to_service"`
+	Discrepancies     []*Discrepancy `json:"discrepancies"`
+	Clears            []string       `json:"clears"`
+	// A software update (action update): the version before and after.
+	SoftwareFrom *string   `json:"software_from"`
+	SoftwareTo   *string   `json:"software_to"`
+	CreatedAt    time.Time `json:"created_at"`
 }
 
 // Validate checks a work record's own fields.
 func (w *WorkRecord) Validate() error {
-	if !oneOf(w.Action, []string{"inspect", "service", "repair", "replace", "retire"}) {
-		return FieldError("action", "must be inspect, service, repair, replace or retire")
+	if !oneOf(w.Action, []string{"inspect", "service", "repair", "replace", "retire", "update"}) {
+		return FieldError("action", "must be inspect, service, repair, replace, retire or update")
 	}
 	if w.At.IsZero() {
 		return FieldError("at", "is required")
@@ -169,6 +179,12 @@ func (w *WorkRecord) Validate() error {
 	}
 	if w.AirframeID == nil && w.PartID == nil && w.RemovedPartID == nil {
 		return FieldError("airframe_id", "a work record needs an airframe or a part")
+	}
+	if err := w.validateSignOff(); err != nil {
+		return err
+	}
+	if err := w.validateUpdate(); err != nil {
+		return err
 	}
 	if w.Action == "replace" {
 		if w.RemovedPartID == nil || w.FittedPartID == nil {
@@ -253,6 +269,11 @@ const (
 	// ReadyNoMotors warns that the register has no motor fitted at all:
 	// usually fit history that starts later than the flights.
 	ReadyNoMotors = "no_fitted_motors"
+	// ReadyGroundingDiscrepancy: a work record found a grounding
+	// discrepancy no later record has cleared; ReadyOpenDiscrepancy: any
+	// other open one (a warning).
+	ReadyGroundingDiscrepancy = "grounding_discrepancy"
+	ReadyOpenDiscrepancy      = "open_discrepancy"
 )
 
 // Readiness is whether an airframe may fly (or might have flown at a past

@@ -158,6 +158,9 @@ func (in *Ingester) resolve(ctx context.Context, f *fleet.Flight, log *telemetry
 	if f.AirframeID == "" {
 		return fleet.FieldError("airframe_id", "give airframe_id, or a '# airframe: CODE' line in the log")
 	}
+	if sw, ok := log.Meta.Other["software"]; ok && f.Software == nil {
+		f.Software = &sw
+	}
 	if len(f.Packs) == 0 {
 		for i, serial := range log.Meta.Packs {
 			p, err := in.DB.PartBySerial(ctx, fleet.KindPack, serial)

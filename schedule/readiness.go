@@ -46,7 +46,7 @@ func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []
 	if err != nil {
 		return nil, err
 	}
-	return assess(f, now, now), nil
+	return p.withRecords(ctx, assess(f, now, now), f.airframe, now)
 }
 
 // ReadinessAt answers whether the airframe was ready at the moment at with
@@ -64,7 +64,7 @@ func (p *Programme) ReadinessAt(ctx context.Context, airframeID string, packIDs 
 	if err != nil {
 		return nil, err
 	}
-	return assess(f, at, p.Now().UTC()), nil
+	return p.withRecords(ctx, assess(f, at, p.Now().UTC()), f.airframe, at)
 }
 
 // assess turns the facts into blockers and warnings.

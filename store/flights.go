@@ -12,7 +12,7 @@ import (
 )
 
 const flightCols = `id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g, site_elevation_m,
-	source, log_sha256, notes, override_reason, created_at, readiness_at_takeoff`
+	source, log_sha256, notes, override_reason, created_at, readiness_at_takeoff, software`
 
 func scanFlight(row pgx.Row) (*fleet.Flight, error) { return scanFlightWith(row) }
 
@@ -21,7 +21,7 @@ func scanFlightWith(row pgx.Row, extra ...any) (*fleet.Flight, error) {
 	var f fleet.Flight
 	var verdict []byte
 	dest := append([]any{&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &verdict}, extra...)
+		&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.CreatedAt, &verdict, &f.Software}, extra...)
 	if err := row.Scan(dest...); err != nil {
 		return nil, err
 	}
@@ -56,8 +56,10 @@ func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight,
 	var out *fleet.Flight
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
 		var err error
-		out, err = insertFlight(ctx, tx, f)
-		return err
+		if out, err = insertFlight(ctx, tx, f); err != nil {
+			return err
+		}
+		return checkSoftware(ctx, tx, out.ID)
 	})
 	return out, err
 }
@@ -90,10 +92,10 @@ func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Fligh
 	}
 	out, err := scanFlight(tx.QueryRow(ctx, `
 		INSERT INTO flights (id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g,
-			site_elevation_m, source, log_sha256, notes, override_reason, readiness_at_takeoff)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13) RETURNING `+flightCols,
+			site_elevation_m, source, log_sha256, notes, override_reason, readiness_at_takeoff, software)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14) RETURNING `+flightCols,
 		newID(), f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
-		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason, verdict))
+		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason, verdict, f.Software))
 	if err != nil {
 		return nil, err
 	}

@@ -230,6 +230,11 @@ func writeAnalysis(ctx context.Context, tx pgx.Tx, flightID, airframeID string, 
 			return err
 		}
 	}
+	// The register comparison is redone with the analysis (whose refresh
+	// replaced the open detected events).
+	if err := checkSoftware(ctx, tx, flightID); err != nil {
+		return err
+	}
 	return audit(ctx, tx, "flight_analysis", flightID, nil, map[string]any{"version": a.Version, "events": len(a.Events)})
 }
 

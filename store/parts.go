@@ -9,12 +9,12 @@ import (
 )
 
 const partCols = `id, kind, serial, part_number, lot, maker, to_char(acquired_on, 'YYYY-MM-DD'), mass_g,
-	status, retired_reason, specs, notes, version, created_at, updated_at`
+	status, retired_reason, specs, software_version, notes, version, created_at, updated_at`
 
 func scanPart(row pgx.Row) (*fleet.Part, error) {
 	var p fleet.Part
 	err := row.Scan(&p.ID, &p.Kind, &p.Serial, &p.PartNumber, &p.Lot, &p.Maker, &p.AcquiredOn, &p.MassG,
-		&p.Status, &p.RetiredReason, &p.Specs, &p.Notes, &p.Version, &p.CreatedAt, &p.UpdatedAt)
+		&p.Status, &p.RetiredReason, &p.Specs, &p.SoftwareVersion, &p.Notes, &p.Version, &p.CreatedAt, &p.UpdatedAt)
 	if err != nil {
 		return nil, err
 	}
@@ -38,12 +38,15 @@ func (db *DB) CreatePart(ctx context.Context, p *fleet.Part) (*fleet.Part, error
 		var err error
 		out, err = scanPart(tx.QueryRow(ctx, `
 			INSERT INTO parts (id, kind, serial, part_number, lot, maker, acquired_on, mass_g, status,
-				retired_reason, specs, notes)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12)
+				retired_reason, specs, notes, software_version)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13)
 			RETURNING `+partCols,
 			newID(), p.Kind, p.Serial, p.PartNumber, p.Lot, p.Maker, p.AcquiredOn, p.MassG, p.Status,
-			p.RetiredReason, p.Specs, p.Notes))
+			p.RetiredReason, p.Specs, p.Notes, p.SoftwareVersion))
 		if err != nil {
+			return err
+		}
+		if err := registerSoftware(ctx, tx, out); err != nil {
 			return err
 		}
 		return audit(ctx, tx, "part", out.ID, nil, out)
@@ -118,6 +121,10 @@ func (db *DB) UpdatePart(ctx context.Context, id string, version int, fn func(*f
 		}
 		if p.Kind != before.Kind {
 			return fleet.FieldError("kind", "cannot be changed")
+		}
+		if (p.SoftwareVersion == nil) != (before.SoftwareVersion == nil) ||
+			(p.SoftwareVersion != nil && *p.SoftwareVersion != *before.SoftwareVersion) {
+			return fleet.FieldError("software_version", "changes only by a work record with action update (its history is kept)")
 		}
 		fitted := before.Status == fleet.PartFitted
 		switch {

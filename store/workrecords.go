@@ -10,15 +10,18 @@ import (
 )
 
 const workCols = `id, at, airframe_id, part_id, rule_id, action, work, performed_by, approved_by, position,
-	removed_part_id, fitted_part_id, resolves::text[], corrects_id, airframe_hours, created_at`
+	removed_part_id, fitted_part_id, resolves::text[], corrects_id, airframe_hours, certificate_number,
+	certificate_kind, return_to_service, clears::text[], software_from, software_to, created_at`
 
 func scanWork(row pgx.Row) (*fleet.WorkRecord, error) {
 	var w fleet.WorkRecord
 	err := row.Scan(&w.ID, &w.At, &w.AirframeID, &w.PartID, &w.RuleID, &w.Action, &w.Work, &w.PerformedBy,
-		&w.ApprovedBy, &w.Position, &w.RemovedPartID, &w.FittedPartID, &w.Resolves, &w.CorrectsID, &w.AirframeHours, &w.CreatedAt)
+		&w.ApprovedBy, &w.Position, &w.RemovedPartID, &w.FittedPartID, &w.Resolves, &w.CorrectsID, &w.AirframeHours,
+		&w.CertificateNumber, &w.CertificateKind, &w.ReturnToService, &w.Clears, &w.SoftwareFrom, &w.SoftwareTo, &w.CreatedAt)
 	if err != nil {
 		return nil, err
 	}
+	w.Discrepancies = []*fleet.Discrepancy{}
 	return &w, nil
 }
 
@@ -40,8 +43,12 @@ func (db *DB) CreateWorkRecord(ctx context.Context, w *fleet.WorkRecord) (*fleet
 	if w.Resolves == nil {
 		w.Resolves = []string{}
 	}
+	if w.Clears == nil {
+		w.Clears = []string{}
+	}
 	var out *fleet.WorkRecord
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
+		id := newID()
 		if err := applyWork(ctx, tx, w); err != nil {
 			return err
 		}
@@ -57,12 +64,23 @@ func (db *DB) CreateWorkRecord(ctx context.Context, w *fleet.WorkRecord) (*fleet
 		var err error
 		out, err = scanWork(tx.QueryRow(ctx, `
 			INSERT INTO work_records (id, at, airframe_id, part_id, rule_id, action, work, performed_by, approved_by,
-				position, removed_part_id, fitted_part_id, resolves, corrects_id, airframe_hours)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13::uuid[], $14, $15) RETURNING `+workCols,
-			newID(), w.At, w.AirframeID, w.PartID, w.RuleID, w.Action, w.Work, w.PerformedBy, w.ApprovedBy,
-			w.Position, w.RemovedPartID, w.FittedPartID, w.Resolves, w.CorrectsID, w.AirframeHours))
+				position, removed_part_id, fitted_part_id, resolves, corrects_id, airframe_hours, certificate_number,
+				certificate_kind, return_to_service, clears, software_from, software_to)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13::uuid[], $14, $15, $16, $17, $18, $19::uuid[],
+				$20, $21) RETURNING `+workCols,
+			id, w.At, w.AirframeID, w.PartID, w.RuleID, w.Action, w.Work, w.PerformedBy, w.ApprovedBy,
+			w.Position, w.RemovedPartID, w.FittedPartID, w.Resolves, w.CorrectsID, w.AirframeHours, w.CertificateNumber,
+			w.CertificateKind, w.ReturnToService, w.Clears, w.SoftwareFrom, w.SoftwareTo))
 		if err != nil {
 			return err
+		}
+		if err := recordSignOff(ctx, tx, w, out); err != nil {
+			return err
+		}
+		if w.Action == "update" {
+			if err := installSoftware(ctx, tx, out); err != nil {
+				return err
+			}
 		}
 		for i, ev := range w.Resolves {
 			tag, err := tx.Exec(ctx, `
@@ -134,6 +152,8 @@ func applyWork(ctx context.Context, tx pgx.Tx, w *fleet.WorkRecord) error {
 			return err
 		}
 		return syncPartStatus(ctx, tx, p.ID)
+	case "update":
+		return checkUpdate(ctx, tx, w)
 	case "retire":
 		if w.PartID == nil {
 			return fleet.FieldError("part_id", "say which part is retired")
@@ -180,6 +200,9 @@ func (db *DB) WorkRecords(ctx context.Context, f WorkFilter, p Page) ([]*fleet.W
 	}
 	list, err := collect(rows, scanWork)
 	if err != nil {
+		return nil, "", err
+	}
+	if err := db.attachDiscrepancies(ctx, list); err != nil {
 		return nil, "", err
 	}
 	return page(list, p.Limit, func(w *fleet.WorkRecord) string { return w.ID })

@@ -1,0 +1,45 @@
+package schedule
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// withRecords adds the maintenance records' items to a readiness answer
+// for the moment at (see recordItems).
+func (p *Programme) withRecords(ctx context.Context, rd *fleet.Readiness, a *fleet.Airframe, at time.Time) (*fleet.Readiness, error) {
+	block := func(code, subject, format string, args ...any) {
+		rd.Blockers = append(rd.Blockers, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
+	}
+	warn := func(code, subject, format string, args ...any) {
+		rd.Warnings = append(rd.Warnings, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
+	}
+	if err := p.recordItems(ctx, a, at, block, warn); err != nil {
+		return nil, err
+	}
+	rd.Ready = len(rd.Blockers) == 0
+	return rd, nil
+}
+
+// recordItems adds what the maintenance records say about the airframe at
+// the moment at: a grounding discrepancy open then blocks, any other open
+// discrepancy warns. Judged as of at, so a past readiness answer is what
+// the records said then.
+func (p *Programme) recordItems(ctx context.Context, a *fleet.Airframe, at time.Time, block, warn note) error {
+	ds, err := p.DB.OpenDiscrepancies(ctx, a.ID, at)
+	if err != nil {
+		return err
+	}
+	for _, d := range ds {
+		found := d.FoundAt.UTC().Format("2006-01-02")
+		if d.Grounding {
+			block(fleet.ReadyGroundingDiscrepancy, d.Subject, "grounding discrepancy on %s found %s: %s", d.Subject, found, d.Description)
+		} else {
+			warn(fleet.ReadyOpenDiscrepancy, d.Subject, "open discrepancy on %s found %s: %s", d.Subject, found, d.Description)
+		}
+	}
+	return nil
+}
