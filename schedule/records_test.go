@@ -156,7 +156,7 @@ func TestDiscrepancyOpensBlocksAndClears(t *testing.T) {
 	fix := b.work(fleet.WorkRecord{At: b.ago(day), AirframeID: &a.ID, Action: "repair", Work: "arm 2 replaced",
 		ApprovedBy: sp("R. Osei"), CertificateNumber: sp("RP-4471902"), CertificateKind: sp("remote pilot"),
 		ReturnToService: sp("I certify the airframe airworthy for return to service"),
-		Clears: []string{insp.Discrepancies[0].ID}})
+		Clears:          []string{insp.Discrepancies[0].ID}})
 	rd, _ = b.p.Readiness(b.ctx, a.ID, nil)
 	if !rd.Ready || !hasCode(rd.Warnings, fleet.ReadyOpenDiscrepancy) {
 		t.Fatalf("after the clearing record: %+v", rd)
