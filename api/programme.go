@@ -100,6 +100,7 @@ type workInput struct {
 	Clears            []string           `json:"clears"`
 	SoftwareFrom      *string            `json:"software_from"`
 	SoftwareTo        *string            `json:"software_to"`
+	NoticeID          *string            `json:"notice_id"`
 }
 
 // discrepancyInput is one discrepancy a work record found.
@@ -130,7 +131,7 @@ func (s *Server) createWorkRecord(c *gin.Context) {
 		out  **string
 	}{{"airframe_id", in.AirframeID, &w.AirframeID}, {"part_id", in.PartID, &w.PartID}, {"rule_id", in.RuleID, &w.RuleID},
 		{"removed_part_id", in.RemovedPartID, &w.RemovedPartID}, {"fitted_part_id", in.FittedPartID, &w.FittedPartID},
-		{"corrects_id", in.CorrectsID, &w.CorrectsID}} {
+		{"corrects_id", in.CorrectsID, &w.CorrectsID}, {"notice_id", in.NoticeID, &w.NoticeID}} {
 		if *f.out, err = optionalID(f.name, f.in); err != nil {
 			s.fail(c, err)
 			return

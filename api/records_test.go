@@ -106,3 +106,73 @@ func TestSoftwareAndSignOffThroughTheAPI(t *testing.T) {
 		t.Fatalf("open after clearing: %d", len(list.Items))
 	}
 }
+
+// Notices through the API: a technician records one, the compliance list
+// shows the subject open, a not-applicable decision and a withdrawal; the
+// due list carries an open notice with its notice id.
+func TestNoticesThroughTheAPI(t *testing.T) {
+	e := newEnv(t)
+	a := e.quad("NT-1")
+	e.fitQuad(a, "NT", "", time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC))
+	r := e.call("POST", "/v1/notices", tech, map[string]any{"reference": "SB-26-020", "title": "arm clamp torque",
+		"issued_on": "2026-01-05", "category": "mandatory", "required_work": "re-torque the arm clamps to 2.5 N m",
+		"applicability": map[string]any{"airframe_models": []string{"Surveyor 4"}},
+		"window":        map[string]any{"days": 30, "from": "issue"}})
+	var n struct {
+		ID string `json:"id"`
+	}
+	r.decode(t, &n)
+	if r.Status != 201 {
+		t.Fatalf("create notice: %d %s", r.Status, r.Body)
+	}
+	if r := e.call("POST", "/v1/notices", fleet.RolePilot, map[string]any{}); r.Status != 403 {
+		t.Fatalf("pilot creating a notice: %d", r.Status)
+	}
+	var cs struct {
+		Items []struct {
+			Subject   string  `json:"subject"`
+			Status    string  `json:"status"`
+			DueStatus *string `json:"due_status"`
+		} `json:"items"`
+	}
+	e.call("GET", "/v1/notices/"+n.ID+"/compliance", fleet.RoleViewer, nil).decode(t, &cs)
+	if len(cs.Items) != 1 || cs.Items[0].Subject != "NT-1" || cs.Items[0].Status != "open" || *cs.Items[0].DueStatus != "overdue" {
+		t.Fatalf("compliance %+v", cs.Items)
+	}
+	var due struct {
+		Items []struct {
+			NoticeID *string `json:"notice_id"`
+			Action   string  `json:"action"`
+		} `json:"items"`
+	}
+	e.call("GET", "/v1/due?airframe="+a.ID, fleet.RoleViewer, nil).decode(t, &due)
+	found := false
+	for _, it := range due.Items {
+		found = found || (it.NoticeID != nil && *it.NoticeID == n.ID && it.Action == "comply")
+	}
+	if !found {
+		t.Fatalf("the due list lacks the notice: %+v", due.Items)
+	}
+	if r := e.call("POST", "/v1/notices/"+n.ID+"/decisions", tech, map[string]any{"subject_kind": "airframe",
+		"subject_id": a.ID, "reason": "clamps of the revised type, not affected"}); r.Status != 201 {
+		t.Fatalf("decision: %d %s", r.Status, r.Body)
+	}
+	e.call("GET", "/v1/notices/"+n.ID+"/compliance?at="+time.Now().Add(time.Minute).UTC().Format(time.RFC3339), fleet.RoleViewer, nil).decode(t, &cs)
+	if len(cs.Items) != 1 || cs.Items[0].Status != "not_applicable" {
+		t.Fatalf("after the decision: %+v", cs.Items)
+	}
+	if r := e.call("DELETE", "/v1/notices/"+n.ID+"/decisions/"+a.ID, admin, nil); r.Status != 204 {
+		t.Fatalf("withdraw decision: %d %s", r.Status, r.Body)
+	}
+	etag := e.call("GET", "/v1/notices/"+n.ID, fleet.RoleViewer, nil).Header.Get("ETag")
+	if r := e.call("DELETE", "/v1/notices/"+n.ID, tech, nil, "If-Match", etag); r.Status != 403 {
+		t.Fatalf("technician withdrawing: %d", r.Status)
+	}
+	if r := e.call("DELETE", "/v1/notices/"+n.ID, admin, nil, "If-Match", etag); r.Status != 204 {
+		t.Fatalf("withdraw: %d %s", r.Status, r.Body)
+	}
+	e.call("GET", "/v1/notices/"+n.ID+"/compliance", fleet.RoleViewer, nil).decode(t, &cs)
+	if len(cs.Items) != 0 {
+		t.Fatalf("a withdrawn notice still applies: %+v", cs.Items)
+	}
+}

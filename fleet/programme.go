@@ -153,6 +153,8 @@ type WorkRecord struct {
 	Discrepancies     []*Discrepancy `json:"discrepancies"`
 	Clears            []string       `json:"clears"`
 	// A software update (action update): the version before and after.
+	// NoticeID names the notice this work complies with, for its subject.
+	NoticeID     *string   `json:"notice_id"`
 	SoftwareFrom *string   `json:"software_from"`
 	SoftwareTo   *string   `json:"software_to"`
 	CreatedAt    time.Time `json:"created_at"`
@@ -206,7 +208,9 @@ const (
 
 // DueItem is one rule applied to one subject.
 type DueItem struct {
-	RuleID       string       `json:"rule_id"`
+	// RuleID or NoticeID: a service rule's item or an open notice's.
+	RuleID       *string      `json:"rule_id"`
+	NoticeID     *string      `json:"notice_id"`
 	RuleName     string       `json:"rule_name"`
 	Action       string       `json:"action"`
 	SubjectKind  string       `json:"subject_kind"` // airframe or part
@@ -226,6 +230,17 @@ type DueItem struct {
 	// or ForecastNoUse); nil with a date, or when no limit has a rate.
 	ForecastReason *string   `json:"forecast_reason"`
 	ComputedAt     time.Time `json:"computed_at"`
+}
+
+// Source is the id of the rule or notice the item comes from.
+func (d *DueItem) Source() string {
+	if d.RuleID != nil {
+		return *d.RuleID
+	}
+	if d.NoticeID != nil {
+		return *d.NoticeID
+	}
+	return ""
 }
 
 // LimitUsage is the use of one limit since the rule was last done.
@@ -274,6 +289,12 @@ const (
 	// other open one (a warning).
 	ReadyGroundingDiscrepancy = "grounding_discrepancy"
 	ReadyOpenDiscrepancy      = "open_discrepancy"
+	// ReadyNoticeOverdue: a mandatory notice open past its compliance
+	// window; ReadyAdvisoryOverdue: an advisory one (a warning);
+	// ReadyNoticeDueSoon: either, near the end of its window (a warning).
+	ReadyNoticeOverdue   = "mandatory_notice_overdue"
+	ReadyAdvisoryOverdue = "advisory_notice_overdue"
+	ReadyNoticeDueSoon   = "notice_due_soon"
 )
 
 // Readiness is whether an airframe may fly (or might have flown at a past

@@ -107,6 +107,14 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 		}
 		subjects[i] = t.s.ID
 	}
+	// Open notices join the list, judged now like the rules.
+	notices, err := p.noticeDueItems(ctx, store.NoticeScope{AirframeID: airframeID, Packs: packs, At: now})
+	if err != nil {
+		return nil, nil, err
+	}
+	for _, it := range notices {
+		items, subjects = append(items, it), append(subjects, it.SubjectID)
+	}
 	return items, subjects, nil
 }
 

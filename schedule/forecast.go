@@ -50,7 +50,7 @@ func (p *Programme) PartsForecast(ctx context.Context, days int) (*Forecast, err
 	}
 	byPN := map[string]*PartDemand{}
 	for _, it := range items {
-		if it.SubjectKind != "part" || it.PartNumber == nil || (it.Action != "replace" && it.Action != "retire") {
+		if it.RuleID == nil || it.SubjectKind != "part" || it.PartNumber == nil || (it.Action != "replace" && it.Action != "retire") {
 			continue
 		}
 		if it.Status != fleet.DueOverdue && (it.ForecastDate == nil || it.ForecastDate.After(end)) {
@@ -58,7 +58,7 @@ func (p *Programme) PartsForecast(ctx context.Context, days int) (*Forecast, err
 		}
 		d := byPN[*it.PartNumber]
 		if d == nil {
-			d = &PartDemand{PartNumber: *it.PartNumber, Kind: kindOf[it.RuleID], Subjects: []string{}}
+			d = &PartDemand{PartNumber: *it.PartNumber, Kind: kindOf[*it.RuleID], Subjects: []string{}}
 			byPN[*it.PartNumber] = d
 		}
 		d.Expected += 1 + repeats(it, now, end)

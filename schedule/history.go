@@ -121,7 +121,7 @@ func (p *Programme) evaluate(ctx context.Context, r *fleet.ServiceRule, s store.
 	last, since := lastDone(h.done, s.Start, at, past)
 	days := p.Window.Hours() / 24
 	u := h.sum(since, at.Add(-p.Window), at, past)
-	it := &fleet.DueItem{RuleID: r.ID, RuleName: r.Name, Action: r.Action, SubjectKind: s.Kind, SubjectID: s.ID,
+	it := &fleet.DueItem{RuleID: &r.ID, RuleName: r.Name, Action: r.Action, SubjectKind: s.Kind, SubjectID: s.ID,
 		Subject: s.Name, AirframeID: s.AirframeID, PartNumber: s.PartNumber, LastDoneAt: last, Since: &since,
 		Usage: []fleet.LimitUsage{}, Grounding: r.Grounding, ComputedAt: at}
 	add := func(l limit) { it.Usage = append(it.Usage, l.usage(at)) }

@@ -251,7 +251,7 @@ func (b *bench) item(r *fleet.ServiceRule, subjectID string) *fleet.DueItem {
 		b.t.Fatal(err)
 	}
 	for _, it := range items {
-		if it.RuleID == r.ID {
+		if it.RuleID != nil && *it.RuleID == r.ID {
 			return it
 		}
 	}

@@ -61,7 +61,7 @@ func TestCountedLimitsAndWarnAt(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, it := range items {
-		if it.RuleID == other.ID {
+		if it.RuleID != nil && *it.RuleID == other.ID {
 			t.Errorf("rule for model OTHER applied to model LK")
 		}
 	}
@@ -301,7 +301,7 @@ func TestNotifyOnTransitions(t *testing.T) {
 		if st != it.Status {
 			return fmt.Errorf("due_items holds %s, notified %s", st, it.Status)
 		}
-		got = append(got, transition{previous, it.Status, it.RuleID, it.SubjectID})
+		got = append(got, transition{previous, it.Status, it.Source(), it.SubjectID})
 		return nil
 	}
 	at := b.ago(20 * day)

@@ -85,6 +85,9 @@ func assess(f *readinessFacts, at, checked time.Time) *fleet.Readiness {
 		block(fleet.ReadyAirframeHeld, a.Code, "airframe %s is held: %s", a.Code, *f.hold)
 	}
 	for _, d := range f.due {
+		if d.NoticeID != nil {
+			continue // notices are judged as of the moment by withRecords
+		}
 		switch {
 		case d.Status == fleet.DueOverdue && d.Grounding:
 			block(fleet.ReadyOverdueGrounding, d.Subject, "%s is overdue on %s (%s)", d.RuleName, d.Subject, d.Reason)

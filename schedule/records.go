@@ -25,10 +25,13 @@ func (p *Programme) withRecords(ctx context.Context, rd *fleet.Readiness, a *fle
 }
 
 // recordItems adds what the maintenance records say about the airframe at
-// the moment at: a grounding discrepancy open then blocks, any other open
-// discrepancy warns. Judged as of at, so a past readiness answer is what
+// the moment at: notices (see noticeItems); a grounding discrepancy open
+// then blocks, any other open discrepancy warns. Judged as of at, so a past readiness answer is what
 // the records said then.
 func (p *Programme) recordItems(ctx context.Context, a *fleet.Airframe, at time.Time, block, warn note) error {
+	if err := p.noticeItems(ctx, a, at, block, warn); err != nil {
+		return err
+	}
 	ds, err := p.DB.OpenDiscrepancies(ctx, a.ID, at)
 	if err != nil {
 		return err

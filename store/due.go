@@ -154,7 +154,7 @@ func (db *DB) ReplaceDue(ctx context.Context, airframeID string, subjects []stri
 	return db.inTx(ctx, func(tx pgx.Tx) error {
 		prev := map[string]string{}
 		rows, err := tx.Query(ctx, `
-			SELECT rule_id::text || '/' || subject_id::text, status FROM due_items
+			SELECT coalesce(rule_id, notice_id)::text || '/' || subject_id::text, status FROM due_items
 			WHERE `+inScope+` FOR UPDATE`, nilIfEmpty(airframeID), subjects)
 		if err != nil {
 			return err
@@ -177,10 +177,10 @@ func (db *DB) ReplaceDue(ctx context.Context, airframeID string, subjects []stri
 			if err != nil {
 				return err
 			}
-			copyRows = append(copyRows, []any{it.RuleID, it.SubjectKind, it.SubjectID, it.AirframeID, it.PartNumber,
+			copyRows = append(copyRows, []any{it.RuleID, it.NoticeID, it.SubjectKind, it.SubjectID, it.AirframeID, it.PartNumber,
 				it.LastDoneAt, it.Since, usage, it.Fraction, it.Status, it.Grounding, it.Reason, it.ForecastDate, it.ForecastReason, it.ComputedAt})
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"due_items"}, []string{"rule_id", "subject_kind", "subject_id",
+		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"due_items"}, []string{"rule_id", "notice_id", "subject_kind", "subject_id",
 			"airframe_id", "part_number", "last_done_at", "since", "usage", "fraction", "status", "grounding", "reason",
 			"forecast_date", "forecast_reason", "computed_at"}, pgx.CopyFromRows(copyRows)); err != nil {
 			return err
@@ -189,7 +189,7 @@ func (db *DB) ReplaceDue(ctx context.Context, airframeID string, subjects []stri
 			return nil
 		}
 		for _, it := range items {
-			was, ok := prev[it.RuleID+"/"+it.SubjectID]
+			was, ok := prev[it.Source()+"/"+it.SubjectID]
 			if !ok {
 				was = fleet.DueOK
 			}
@@ -214,10 +214,11 @@ type DueFilter struct {
 // DueItems lists due items, most urgent first.
 func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, error) {
 	rows, err := db.pool.Query(ctx, `
-		SELECT d.rule_id, r.name, r.action, d.subject_kind, d.subject_id,
+		SELECT d.rule_id, d.notice_id, coalesce(r.name, n.reference || ' rev ' || n.revision || ': ' || n.title),
+			coalesce(r.action, 'comply'), d.subject_kind, d.subject_id,
 			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
 			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.forecast_reason, d.computed_at
-		FROM due_items d JOIN service_rules r ON r.id = d.rule_id
+		FROM due_items d LEFT JOIN service_rules r ON r.id = d.rule_id LEFT JOIN notices n ON n.id = d.notice_id
 		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
 		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id
 		WHERE ($1 = '' OR d.status = $1) AND ($2::uuid IS NULL OR d.airframe_id = $2)
@@ -231,7 +232,7 @@ func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, erro
 	return collect(rows, func(r pgx.Row) (*fleet.DueItem, error) {
 		var d fleet.DueItem
 		var usage []byte
-		if err := r.Scan(&d.RuleID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
+		if err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
 			&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
 			&d.ForecastDate, &d.ForecastReason, &d.ComputedAt); err != nil {
 			return nil, err

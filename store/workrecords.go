@@ -11,13 +11,13 @@ import (
 
 const workCols = `id, at, airframe_id, part_id, rule_id, action, work, performed_by, approved_by, position,
 	removed_part_id, fitted_part_id, resolves::text[], corrects_id, airframe_hours, certificate_number,
-	certificate_kind, return_to_service, clears::text[], software_from, software_to, created_at`
+	certificate_kind, return_to_service, clears::text[], software_from, software_to, notice_id, created_at`
 
 func scanWork(row pgx.Row) (*fleet.WorkRecord, error) {
 	var w fleet.WorkRecord
 	err := row.Scan(&w.ID, &w.At, &w.AirframeID, &w.PartID, &w.RuleID, &w.Action, &w.Work, &w.PerformedBy,
 		&w.ApprovedBy, &w.Position, &w.RemovedPartID, &w.FittedPartID, &w.Resolves, &w.CorrectsID, &w.AirframeHours,
-		&w.CertificateNumber, &w.CertificateKind, &w.ReturnToService, &w.Clears, &w.SoftwareFrom, &w.SoftwareTo, &w.CreatedAt)
+		&w.CertificateNumber, &w.CertificateKind, &w.ReturnToService, &w.Clears, &w.SoftwareFrom, &w.SoftwareTo, &w.NoticeID, &w.CreatedAt)
 	if err != nil {
 		return nil, err
 	}
@@ -65,12 +65,12 @@ func (db *DB) CreateWorkRecord(ctx context.Context, w *fleet.WorkRecord) (*fleet
 		out, err = scanWork(tx.QueryRow(ctx, `
 			INSERT INTO work_records (id, at, airframe_id, part_id, rule_id, action, work, performed_by, approved_by,
 				position, removed_part_id, fitted_part_id, resolves, corrects_id, airframe_hours, certificate_number,
-				certificate_kind, return_to_service, clears, software_from, software_to)
+				certificate_kind, return_to_service, clears, software_from, software_to, notice_id)
 			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13::uuid[], $14, $15, $16, $17, $18, $19::uuid[],
-				$20, $21) RETURNING `+workCols,
+				$20, $21, $22) RETURNING `+workCols,
 			id, w.At, w.AirframeID, w.PartID, w.RuleID, w.Action, w.Work, w.PerformedBy, w.ApprovedBy,
 			w.Position, w.RemovedPartID, w.FittedPartID, w.Resolves, w.CorrectsID, w.AirframeHours, w.CertificateNumber,
-			w.CertificateKind, w.ReturnToService, w.Clears, w.SoftwareFrom, w.SoftwareTo))
+			w.CertificateKind, w.ReturnToService, w.Clears, w.SoftwareFrom, w.SoftwareTo, w.NoticeID))
 		if err != nil {
 			return err
 		}
