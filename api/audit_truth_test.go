@@ -74,6 +74,11 @@ func TestPatchAuditMatchesReads(t *testing.T) {
 	}
 	var evID idBody
 	ev.decode(t, &evID)
+	notice := e.create("/v1/notices", map[string]any{"reference": "AT-SB-1", "title": "clamp torque", "issued_on": "2026-01-05",
+		"category": "mandatory", "required_work": "re-torque",
+		"applicability": map[string]any{"part_kind": "flight_controller", "part_numbers": []string{"FC-7"},
+			"software": []map[string]any{{"part_kind": "flight_controller", "below": "4.2.0"}}},
+		"window": map[string]any{"flight_hours": 10, "from": "applicable"}})
 
 	cmap := e.call("POST", "/v1/column-maps", tech, map[string]any{"name": "AT map", "time": map[string]any{"column": "T"},
 		"columns": map[string]any{"pack_v": map[string]any{"from": "V"}, "pack_a": map[string]any{"from": "A", "scale": 0.01}},
@@ -133,6 +138,13 @@ func TestPatchAuditMatchesReads(t *testing.T) {
 			{`{"time":{"column":"T","unit":"ms","origin":"start"},"delimiter":";"}`, 200},
 			{`{"detect":[]}`, 200},
 			{`{"columns":{"pack_v":{"from":"V","scale":0}}}`, 400},
+		}},
+		{"notice", "/v1/notices/" + notice.ID, tech, []patch{
+			{`{"revision":"2"}`, 200},
+			{`{"applicability":{"part_kind":"flight_controller","part_numbers":["FC-7","FC-9"],"software":[{"part_kind":"flight_controller","min":"4.0.0","below":"4.3.0"}]}}`, 200},
+			{`{"window":{"days":30,"from":"issue","recurring":true}}`, 200},
+			{`{"category":"advisory","title":"arm clamp torque"}`, 200},
+			{`{"window":{"days":30,"recurring":true,"due_on":"2026-05-01"}}`, 400},
 		}},
 		{"event", "/v1/events/" + evID.ID, tech, []patch{
 			{`{"detail":"peak 95 A"}`, 200},

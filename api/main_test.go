@@ -45,6 +45,7 @@ func TestMain(m *testing.M) {
 	}
 	openapi3filter.RegisterBodyDecoder("text/csv", asText)
 	openapi3filter.RegisterBodyDecoder("text/html", asText)
+	openapi3filter.RegisterBodyDecoder("application/zip", asText)
 	// Match requests on any host: the test server is not the documented one.
 	routed := *doc
 	routed.Servers = nil

@@ -1,11 +1,13 @@
 package api_test
 
 import (
+	"bytes"
 	"strings"
 	"testing"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/records"
 )
 
 // Through the API: a flight controller registered with its software, an
@@ -174,5 +176,40 @@ func TestNoticesThroughTheAPI(t *testing.T) {
 	e.call("GET", "/v1/notices/"+n.ID+"/compliance", fleet.RoleViewer, nil).decode(t, &cs)
 	if len(cs.Items) != 0 {
 		t.Fatalf("a withdrawn notice still applies: %+v", cs.Items)
+	}
+}
+
+// The records bundle through the router: a technician gets a zip that
+// verifies (with the raw logs when asked); a viewer gets 403.
+func TestRecordsBundleThroughTheAPI(t *testing.T) {
+	e := newEnv(t)
+	a, _, spec := e.simFleet()
+	log, _ := genLog(t, spec)
+	if r := e.upload(map[string]any{"pilot": "I. Brandt"}, log, pilot); r.Status != 201 {
+		t.Fatalf("upload: %d %s", r.Status, r.Body)
+	}
+	r := e.call("GET", "/v1/airframes/"+a.ID+"/records?logs=true", tech, nil)
+	if r.Status != 200 || r.Header.Get("Content-Type") != "application/zip" ||
+		!strings.Contains(r.Header.Get("Content-Disposition"), "-records-") {
+		t.Fatalf("bundle: %d %v", r.Status, r.Header)
+	}
+	rep, err := records.Verify(bytes.NewReader(r.Body), int64(len(r.Body)))
+	if err != nil || rep.Fault != "" {
+		t.Fatalf("verify: %v %q", err, rep.Fault)
+	}
+	logs := 0
+	for _, f := range rep.Manifest.Files {
+		if strings.HasPrefix(f.Name, "logs/") {
+			logs++
+		}
+	}
+	if logs != 1 {
+		t.Fatalf("%d raw logs in the bundle, want 1", logs)
+	}
+	if r := e.call("GET", "/v1/airframes/"+a.ID+"/records", fleet.RoleViewer, nil); r.Status != 403 {
+		t.Fatalf("viewer: %d", r.Status)
+	}
+	if r := e.call("GET", "/v1/airframes/"+someID+"/records", tech, nil); r.Status != 404 {
+		t.Fatalf("unknown airframe: %d", r.Status)
 	}
 }

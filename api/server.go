@@ -78,6 +78,7 @@ var Routes = []Route{
 	{Method: "POST", Path: "/v1/airframes/:id/fits", Role: fleet.RoleTechnician, handler: (*Server).createFit},
 	{Method: "POST", Path: "/v1/airframes/:id/removals", Role: fleet.RoleTechnician, handler: (*Server).createRemoval},
 	{Method: "GET", Path: "/v1/airframes/:id/trends", Role: fleet.RoleViewer, handler: (*Server).airframeTrends},
+	{Method: "GET", Path: "/v1/airframes/:id/records", Role: fleet.RoleTechnician, handler: (*Server).airframeRecords},
 
 	{Method: "GET", Path: "/v1/parts", Role: fleet.RoleViewer, handler: (*Server).listParts},
 	{Method: "POST", Path: "/v1/parts", Role: fleet.RoleTechnician, handler: (*Server).createPart},

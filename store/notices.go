@@ -128,14 +128,14 @@ func (db *DB) UpdateNotice(ctx context.Context, id string, version int, fn func(
 		if before.WithdrawnAt != nil {
 			return fleet.Errorf(fleet.ECONFLICT, "the notice is withdrawn")
 		}
-		n := *before
-		if err := fn(&n); err != nil {
+		n := clone(before)
+		if err := fn(n); err != nil {
 			return err
 		}
 		if err := n.Validate(); err != nil {
 			return err
 		}
-		args, err := noticeArgs(&n)
+		args, err := noticeArgs(n)
 		if err != nil {
 			return err
 		}

@@ -116,6 +116,7 @@ maintenance personnel, the manufacturer's instructions and local aviation rules.
 		c.dueCmd(),
 		c.auditCmd(),
 		c.packCmd(),
+		c.recordsCmd(),
 	)
 	return root
 }
