@@ -4,7 +4,8 @@ import (
 	"encoding/csv"
 	"io"
 	"strconv"
-	"strings"
+
+	"github.com/rotorwright/rotorwright/fleet"
 )
 
 // CSV formula injection: a spreadsheet runs a cell that begins with '=',
@@ -14,16 +15,9 @@ import (
 // guidance). Numbers the service formats itself (num) stay raw: they
 // carry no formula, and a negative number must stay a number.
 
-// formulaStart lists the characters that make a spreadsheet cell a formula.
-const formulaStart = "=+-@\t\r"
-
-// safeText neutralises a text cell.
-func safeText(s string) string {
-	if s != "" && strings.ContainsRune(formulaStart, rune(s[0])) {
-		return "'" + s
-	}
-	return s
-}
+// safeText neutralises a text cell (the rule is fleet.SpreadsheetSafe, shared
+// with the records bundle's CSV copies).
+func safeText(s string) string { return fleet.SpreadsheetSafe(s) }
 
 // csvWriter writes rows of text and number cells.
 type csvWriter struct{ w *csv.Writer }

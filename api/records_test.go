@@ -2,6 +2,7 @@ package api_test
 
 import (
 	"bytes"
+	"encoding/csv"
 	"strings"
 	"testing"
 	"time"
@@ -211,5 +212,73 @@ func TestRecordsBundleThroughTheAPI(t *testing.T) {
 	}
 	if r := e.call("GET", "/v1/airframes/"+someID+"/records", tech, nil); r.Status != 404 {
 		t.Fatalf("unknown airframe: %d", r.Status)
+	}
+}
+
+// The monthly summary counts one month's flights, hours, flights flown not
+// ready, work by action, events by kind and discrepancies per airframe, and
+// nothing from the month before; the CSV has a row per airframe and a total.
+func TestMonthlyReport(t *testing.T) {
+	e := newEnv(t)
+	now := time.Now().UTC()
+	month := time.Date(now.Year(), now.Month(), 1, 0, 0, 0, 0, time.UTC).AddDate(0, -1, 0)
+	a := e.quad("MR-1")
+	e.fitQuad(a, "MR", "", month.AddDate(0, -2, 0))
+	flight := func(at time.Time, minutes int, override string) {
+		t.Helper()
+		body := map[string]any{"airframe_id": a.ID, "pilot": "B. Okafor", "takeoff_at": at,
+			"landing_at": at.Add(time.Duration(minutes) * time.Minute)}
+		if override != "" {
+			body["override_reason"] = override
+		}
+		if r := e.call("POST", "/v1/flights", pilot, body); r.Status != 201 {
+			t.Fatalf("flight: %d %s", r.Status, r.Body)
+		}
+	}
+	flight(month.AddDate(0, 0, -3), 30, "")                // the month before
+	flight(month.AddDate(0, 0, 2), 30, "")                 // in the month
+	flight(month.AddDate(0, 0, 3), 45, "")                 // in the month
+	if r := e.call("POST", "/v1/events", pilot, map[string]any{"kind": "hard_landing", "airframe_id": a.ID,
+		"at": month.AddDate(0, 0, 3).Add(45 * time.Minute), "detail": "gusty"}); r.Status != 201 {
+		t.Fatalf("event: %d %s", r.Status, r.Body)
+	}
+	flight(month.AddDate(0, 0, 4), 15, "ferry to the workshop") // flown not ready (the hard landing is open)
+	if r := e.call("POST", "/v1/work-records", tech, map[string]any{"action": "inspect", "airframe_id": a.ID,
+		"at": month.AddDate(0, 0, 5), "work": "post hard-landing inspection", "performed_by": "K. Lindqvist",
+		"discrepancies": []map[string]any{{"description": "landing gear leg bent", "grounding": true}}}); r.Status != 201 {
+		t.Fatalf("work: %d %s", r.Status, r.Body)
+	}
+	var rep struct {
+		Month     string `json:"month"`
+		Airframes []struct {
+			Airframe           string         `json:"airframe"`
+			Flights            int            `json:"flights"`
+			FlightHours        float64        `json:"flight_hours"`
+			FlownNotReady      int            `json:"flown_not_ready"`
+			Maintenance        map[string]int `json:"maintenance"`
+			EventsByKind       map[string]int `json:"events_by_kind"`
+			DiscrepanciesFound int            `json:"discrepancies_found"`
+		} `json:"airframes"`
+		Total struct {
+			Flights int `json:"flights"`
+		} `json:"total"`
+	}
+	m := month.Format("2006-01")
+	e.call("GET", "/v1/reports/monthly?month="+m, fleet.RoleViewer, nil).decode(t, &rep)
+	if rep.Month != m || len(rep.Airframes) != 1 {
+		t.Fatalf("report %+v", rep)
+	}
+	l := rep.Airframes[0]
+	if l.Flights != 3 || l.FlightHours != 1.5 || l.FlownNotReady != 1 || l.Maintenance["inspect"] != 1 ||
+		l.EventsByKind["hard_landing"] != 1 || l.DiscrepanciesFound != 1 || rep.Total.Flights != 3 {
+		t.Fatalf("line %+v total %+v", l, rep.Total)
+	}
+	r := e.call("GET", "/v1/reports/monthly?month="+m+"&format=csv", fleet.RoleViewer, nil)
+	rows, err := csv.NewReader(bytes.NewReader(r.Body)).ReadAll()
+	if err != nil || len(rows) != 3 || rows[1][1] != "MR-1" || rows[2][1] != "all airframes" || rows[1][3] != "3" {
+		t.Fatalf("csv %v %v", err, rows)
+	}
+	if r := e.call("GET", "/v1/reports/monthly?month=2026-13", fleet.RoleViewer, nil); r.Status != 400 || r.problem(t).Field != "month" {
+		t.Fatalf("bad month: %d", r.Status)
 	}
 }

@@ -139,6 +139,7 @@ var Routes = []Route{
 	{Method: "GET", Path: "/v1/due", Role: fleet.RoleViewer, handler: (*Server).listDue},
 	{Method: "GET", Path: "/v1/airframes/:id/readiness", Role: fleet.RoleViewer, handler: (*Server).readiness},
 	{Method: "GET", Path: "/v1/forecast/parts", Role: fleet.RoleViewer, handler: (*Server).partsForecast},
+	{Method: "GET", Path: "/v1/reports/monthly", Role: fleet.RoleViewer, handler: (*Server).monthlyReport},
 }
 
 // New builds the server and its router. prog may be nil for the default

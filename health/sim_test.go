@@ -227,7 +227,7 @@ func packTruth(t *testing.T, law sim.FadeLaw, coeff, truthEOL float64) {
 	}
 	found := false
 	for _, it := range items {
-		if it.RuleID != rule.ID {
+		if it.RuleID == nil || *it.RuleID != rule.ID {
 			continue
 		}
 		for _, u := range it.Usage {

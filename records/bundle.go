@@ -145,7 +145,15 @@ func (w *writer) table(name string, header ...string) (*table, error) {
 	return t, t.c.Write(header)
 }
 
-func (t *table) row(cells ...string) error { return t.c.Write(cells) }
+// row writes a row, every cell neutralised against formula injection
+// (fleet.SpreadsheetSafe). The bundle's numeric columns (hours, charge,
+// energy, counts, ids) are never negative, so no number is quoted.
+func (t *table) row(cells ...string) error {
+	for i, c := range cells {
+		cells[i] = fleet.SpreadsheetSafe(c)
+	}
+	return t.c.Write(cells)
+}
 
 func (t *table) close() error {
 	t.c.Flush()

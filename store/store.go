@@ -11,6 +11,7 @@ import (
 	"io"
 	"net"
 	"strings"
+	"sync"
 	"syscall"
 	"time"
 
@@ -164,14 +165,39 @@ func (db *DB) tryTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 		return err
 	}
 	defer tx.Rollback(ctx)
+	var rows [][]any
+	pendingAudit.Store(tx, &rows)
+	defer pendingAudit.Delete(tx)
 	if err := fn(tx); err != nil {
 		return err
+	}
+	if len(rows) > 0 {
+		b := &pgx.Batch{}
+		for _, args := range rows {
+			b.Queue(insertAuditSQL, args...)
+		}
+		if err := tx.SendBatch(ctx, b).Close(); err != nil {
+			return err
+		}
 	}
 	return tx.Commit(ctx)
 }
 
-// audit writes one audit-log row in tx. before and after are marshalled to
-// JSON (nil stays SQL NULL).
+// pendingAudit holds, per transaction run by tryTx, the audit rows written
+// during it; they are inserted together just before the commit. Appending
+// to the hash chain takes its lock until the commit (migration 007), so
+// writing the rows last holds that lock for the commit only, not for the
+// whole transaction, and concurrent writers serialise for that much alone.
+var pendingAudit sync.Map // pgx.Tx -> *[][]any
+
+const insertAuditSQL = `
+		INSERT INTO audit_log (actor, actor_name, request_id, client_request_id, method, route, entity, entity_id,
+			before, after)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`
+
+// audit writes one audit-log row in tx, at its commit when tx is run by
+// tryTx (see pendingAudit). before and after are marshalled to JSON now (nil
+// stays SQL NULL), so the row holds the values as they were at the call.
 func audit(ctx context.Context, tx pgx.Tx, entity, entityID string, before, after any) error {
 	a := actorFrom(ctx)
 	var actor *string
@@ -190,11 +216,13 @@ func audit(ctx context.Context, tx pgx.Tx, entity, entityID string, before, afte
 	if a.ClientRequestID != "" {
 		client = &a.ClientRequestID
 	}
-	_, err = tx.Exec(ctx, `
-		INSERT INTO audit_log (actor, actor_name, request_id, client_request_id, method, route, entity, entity_id,
-			before, after)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
-		actor, a.Name, a.RequestID, client, a.Method, a.Route, entity, entityID, b, af)
+	args := []any{actor, a.Name, a.RequestID, client, a.Method, a.Route, entity, entityID, b, af}
+	if p, ok := pendingAudit.Load(tx); ok {
+		rows := p.(*[][]any)
+		*rows = append(*rows, args)
+		return nil
+	}
+	_, err = tx.Exec(ctx, insertAuditSQL, args...)
 	return err
 }
 
