@@ -235,9 +235,9 @@ func TestMonthlyReport(t *testing.T) {
 			t.Fatalf("flight: %d %s", r.Status, r.Body)
 		}
 	}
-	flight(month.AddDate(0, 0, -3), 30, "")                // the month before
-	flight(month.AddDate(0, 0, 2), 30, "")                 // in the month
-	flight(month.AddDate(0, 0, 3), 45, "")                 // in the month
+	flight(month.AddDate(0, 0, -3), 30, "") // the month before
+	flight(month.AddDate(0, 0, 2), 30, "")  // in the month
+	flight(month.AddDate(0, 0, 3), 45, "")  // in the month
 	if r := e.call("POST", "/v1/events", pilot, map[string]any{"kind": "hard_landing", "airframe_id": a.ID,
 		"at": month.AddDate(0, 0, 3).Add(45 * time.Minute), "detail": "gusty"}); r.Status != 201 {
 		t.Fatalf("event: %d %s", r.Status, r.Body)
