@@ -198,7 +198,7 @@ func (b *Bundle) Discrepancies(ctx context.Context, fn func(*fleet.Discrepancy) 
 func (b *Bundle) Audit(ctx context.Context, fn func(*AuditEntry) error) error {
 	return each(ctx, b.tx, `
 		WITH p AS (`+everFitted+`)
-		SELECT id, at, actor, actor_name, request_id, method, route, entity, entity_id, before, after,
+		SELECT id, at, actor, actor_name, request_id, client_request_id, method, route, entity, entity_id, before, after,
 			encode(prev_hash, 'hex'), encode(hash, 'hex')
 		FROM audit_log a
 		WHERE (a.entity = 'airframe' AND a.entity_id = $1::text)
@@ -214,7 +214,7 @@ func (b *Bundle) Audit(ctx context.Context, fn func(*AuditEntry) error) error {
 		   OR (a.entity = 'notice_decision' AND split_part(a.entity_id, '/', 2) IN (SELECT part_id::text FROM p UNION SELECT $1::text))
 		ORDER BY a.id`, []any{b.AirframeID}, func(r pgx.Rows) error {
 		var e AuditEntry
-		if err := r.Scan(&e.ID, &e.At, &e.Actor, &e.ActorName, &e.RequestID, &e.Method, &e.Route, &e.Entity, &e.EntityID,
+		if err := r.Scan(&e.ID, &e.At, &e.Actor, &e.ActorName, &e.RequestID, &e.ClientRequestID, &e.Method, &e.Route, &e.Entity, &e.EntityID,
 			&e.Before, &e.After, &e.PrevHash, &e.Hash); err != nil {
 			return err
 		}
