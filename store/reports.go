@@ -20,7 +20,8 @@ type MonthlyLine struct {
 	Flights     int     `json:"flights"`
 	FlightHours float64 `json:"flight_hours"`
 	// FlownNotReady counts flights that took off while the airframe was not
-	// ready (flown with an override reason, or flagged flown_not_ready).
+	// ready: their verdict at take-off says so, or a flown_not_ready event
+	// flags them.
 	FlownNotReady        int            `json:"flown_not_ready"`
 	WorkRecords          int            `json:"work_records"`
 	Maintenance          map[string]int `json:"maintenance"` // by action
@@ -98,7 +99,7 @@ func (db *DB) Monthly(ctx context.Context, from time.Time) (*MonthlyReport, erro
 	if err == nil {
 		err = each(ctx, tx, `
 			SELECT f.airframe_id, count(*), coalesce(sum(extract(epoch FROM f.landing_at - f.takeoff_at)) / 3600, 0),
-				count(*) FILTER (WHERE f.override_reason IS NOT NULL
+				count(*) FILTER (WHERE (f.readiness_at_takeoff->>'ready')::boolean IS FALSE
 					OR EXISTS (SELECT 1 FROM events e WHERE e.flight_id = f.id AND e.kind = 'flown_not_ready'))
 			FROM flights f WHERE f.takeoff_at >= $1 AND f.takeoff_at < $2 GROUP BY f.airframe_id`, []any{from, to},
 			func(r pgx.Rows) error {

@@ -59,4 +59,4 @@ ALTER TABLE flights ADD COLUMN software text;
 ALTER TABLE events DROP CONSTRAINT events_kind_check;
 ALTER TABLE events ADD CONSTRAINT events_kind_check
     CHECK (kind IN ('hard_landing', 'crash', 'prop_strike', 'overdischarge', 'overcurrent', 'pack_swelling',
-                    'overtemp', 'firmware_change', 'note', 'software_mismatch'));
+                    'overtemp', 'firmware_change', 'note', 'flown_not_ready', 'software_mismatch'));
