@@ -120,14 +120,13 @@ func (b *Bundle) Flights(ctx context.Context, fn func(*BundleFlight) error) erro
 			l.samples, coalesce(m.metrics, 'null'::jsonb)
 		FROM flights f LEFT JOIN flight_logs l ON l.flight_id = f.id LEFT JOIN flight_metrics m ON m.flight_id = f.id
 		WHERE f.airframe_id = $1 ORDER BY f.takeoff_at`, []any{b.AirframeID}, func(r pgx.Rows) error {
-		var f fleet.Flight
 		var packs []byte
-		bf := &BundleFlight{Flight: &f}
-		if err := r.Scan(&f.ID, &f.AirframeID, &f.JobID, &f.Pilot, &f.TakeoffAt, &f.LandingAt, &f.TakeoffMassG,
-			&f.SiteElevationM, &f.Source, &f.LogSHA256, &f.Notes, &f.OverrideReason, &f.Software, &f.CreatedAt,
-			&packs, &bf.LogSamples, &bf.Metrics); err != nil {
+		bf := &BundleFlight{}
+		f, err := scanFlightWith(r, &packs, &bf.LogSamples, &bf.Metrics)
+		if err != nil {
 			return err
 		}
+		bf.Flight = f
 		if err := json.Unmarshal(packs, &f.Packs); err != nil {
 			return err
 		}
