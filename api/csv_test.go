@@ -40,7 +40,7 @@ func TestCSVCellsCannotBeFormulas(t *testing.T) {
 	e.create("/v1/airframes", map[string]any{"code": "CSV-2", "layout": "quad-x", "cells_s": 6, "model": evil[1]})
 	covered := map[string]func() string{
 		"/v1/jobs/{id}/manifest": func() string { return "/v1/jobs/" + job.ID + "/manifest?format=csv" },
-		"/v1/reports/monthly":    func() string { return "/v1/reports/monthly?format=csv&month=" + at.Format("2006-01") },
+		"/v1/reports/monthly":    func() string { return "/v1/reports/monthly?format=csv&month=" + time.Now().UTC().Format("2006-01") },
 	}
 	// The monthly summary carries only airframe codes and models as text.
 	minQuoted := map[string]int{"/v1/reports/monthly": 1}

@@ -47,7 +47,7 @@ func TestSoftwareAndSignOffThroughTheAPI(t *testing.T) {
 	}
 	log, _ := genLog(t, spec)
 	log = append([]byte("# software: 4.1.0\n"), log...)
-	r = e.upload(map[string]any{"pilot": "I. Brandt"}, log, pilot)
+	r = e.upload(map[string]any{"pilot": "I. Brandt"}, log, tech)
 	var d struct {
 		ID       string  `json:"id"`
 		Software *string `json:"software"`
@@ -186,7 +186,7 @@ func TestRecordsBundleThroughTheAPI(t *testing.T) {
 	e := newEnv(t)
 	a, _, spec := e.simFleet()
 	log, _ := genLog(t, spec)
-	if r := e.upload(map[string]any{"pilot": "I. Brandt"}, log, pilot); r.Status != 201 {
+	if r := e.upload(map[string]any{"pilot": "I. Brandt"}, log, tech); r.Status != 201 {
 		t.Fatalf("upload: %d %s", r.Status, r.Body)
 	}
 	r := e.call("GET", "/v1/airframes/"+a.ID+"/records?logs=true", tech, nil)
@@ -231,7 +231,7 @@ func TestMonthlyReport(t *testing.T) {
 		if override != "" {
 			body["override_reason"] = override
 		}
-		if r := e.call("POST", "/v1/flights", pilot, body); r.Status != 201 {
+		if r := e.call("POST", "/v1/flights", tech, body); r.Status != 201 {
 			t.Fatalf("flight: %d %s", r.Status, r.Body)
 		}
 	}
