@@ -273,6 +273,10 @@ func uploadError(err error, l Limits) error {
 	if errors.As(err, &mbe) {
 		return fleet.Errorf(fleet.ETOOLARGE, "upload over %d bytes", l.LogBytes+l.JSONBytes)
 	}
+	if errors.Is(err, errBodyTooSlow) {
+		return fleet.Errorf(fleet.ETIMEOUT, "the upload arrived too slowly: after %s it must average at least %s",
+			l.BodyGrace, byteRate(l.MinBodyRate))
+	}
 	return fleet.Errorf(fleet.EINVALID, "malformed multipart body")
 }
 

@@ -66,7 +66,7 @@ func (s *Server) idempotency(limit int64) gin.HandlerFunc {
 			s.fail(c, fleet.Errorf(fleet.ETOOLARGE, "request body over %d bytes", limit))
 			return
 		} else if err != nil {
-			s.fail(c, fleet.Errorf(fleet.EINVALID, "could not read the request body"))
+			s.fail(c, bodyReadError(err, s))
 			return
 		}
 		c.Request.Body = io.NopCloser(bytes.NewReader(body))

@@ -69,7 +69,7 @@ func newEnv(t *testing.T) *env {
 	t.Parallel()
 	db := store.New(pgtest.NewPool(t))
 	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelError}))
-	e := &env{t: t, db: db, log: log, h: api.New(db, log, api.DefaultLimits, nil).Handler(),
+	e := &env{t: t, db: db, log: log, h: api.New(db, log, unlimited(api.DefaultLimits), nil).Handler(),
 		tokens: map[fleet.Role]string{}, keys: map[fleet.Role]string{}}
 	for _, r := range fleet.Roles {
 		k, tok, err := db.CreateKey(context.Background(), "test "+string(r), r)
@@ -84,8 +84,15 @@ func newEnv(t *testing.T) *env {
 // withLimits is the same environment served with other request limits.
 func (e *env) withLimits(rows int, bytes int64) *env {
 	c := *e
-	c.h = api.New(e.db, e.log, api.Limits{LogRows: rows, LogBytes: bytes}, nil).Handler()
+	c.h = api.New(e.db, e.log, unlimited(api.Limits{LogRows: rows, LogBytes: bytes}), nil).Handler()
 	return &c
+}
+
+// unlimited turns the rate limits off: tests send requests as fast as they
+// can from one address; the limits have tests of their own.
+func unlimited(l api.Limits) api.Limits {
+	l.RatePerKey, l.RatePerAddr, l.AuthFailures, l.Ingests = -1, -1, -1, 64
+	return l
 }
 
 // resp is a recorded response.

@@ -33,6 +33,8 @@ var statusOf = map[string]int{
 	fleet.EPRECONDREQ:    http.StatusPreconditionRequired,
 	fleet.ETOOLARGE:      http.StatusRequestEntityTooLarge,
 	fleet.EUNAVAILABLE:   http.StatusServiceUnavailable,
+	fleet.ETOOMANY:       http.StatusTooManyRequests,
+	fleet.ETIMEOUT:       http.StatusRequestTimeout,
 	fleet.EINTERNAL:      http.StatusInternalServerError,
 }
 

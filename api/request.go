@@ -29,7 +29,7 @@ func (s *Server) readBody(c *gin.Context) ([]byte, error) {
 	if errors.As(err, &mbe) {
 		return nil, fleet.Errorf(fleet.ETOOLARGE, "request body over %d bytes", s.limits.JSONBytes)
 	} else if err != nil {
-		return nil, fleet.Errorf(fleet.EINVALID, "could not read the request body")
+		return nil, bodyReadError(err, s)
 	}
 	return b, nil
 }

@@ -31,10 +31,69 @@ type Limits struct {
 	// IdempotencyLease is how long an Idempotency-Key claim holds without
 	// renewal: a retry after a crash or a lost client waits at most this.
 	IdempotencyLease time.Duration
+	// Rates in requests per second (burst twice that) per API key and per
+	// client address; 0 takes the default, a negative rate is no limit.
+	RatePerKey, RatePerAddr float64
+	// AuthFailures failed authentications from one address within
+	// AuthLockout lock it out for AuthLockout (negative: never).
+	AuthFailures int
+	AuthLockout  time.Duration
+	// Ingests is how many log uploads run at once.
+	Ingests int
+	// MinBodyRate (bytes per second) applies to every request body after
+	// BodyGrace; negative: no minimum.
+	MinBodyRate int
+	BodyGrace   time.Duration
+	// TrustedProxies may set X-Forwarded-For; none by default, so the
+	// per-address limits see the connection's own address.
+	TrustedProxies []string
+}
+
+// withDefaults fills zero fields with the defaults; negative rates and
+// counts mean "off" and become zero.
+func (l Limits) withDefaults() Limits {
+	d := DefaultLimits
+	if l.JSONBytes == 0 {
+		l.JSONBytes = d.JSONBytes
+	}
+	if l.LogBytes == 0 {
+		l.LogBytes = d.LogBytes
+	}
+	if l.LogRows == 0 {
+		l.LogRows = d.LogRows
+	}
+	if l.IdempotencyLease <= 0 {
+		l.IdempotencyLease = d.IdempotencyLease
+	}
+	pick := func(v, def float64) float64 {
+		switch {
+		case v == 0:
+			return def
+		case v < 0:
+			return 0
+		}
+		return v
+	}
+	l.RatePerKey = pick(l.RatePerKey, d.RatePerKey)
+	l.RatePerAddr = pick(l.RatePerAddr, d.RatePerAddr)
+	l.AuthFailures = int(pick(float64(l.AuthFailures), float64(d.AuthFailures)))
+	l.MinBodyRate = int(pick(float64(l.MinBodyRate), float64(d.MinBodyRate)))
+	if l.AuthLockout <= 0 {
+		l.AuthLockout = d.AuthLockout
+	}
+	if l.Ingests <= 0 {
+		l.Ingests = d.Ingests
+	}
+	if l.BodyGrace <= 0 {
+		l.BodyGrace = d.BodyGrace
+	}
+	return l
 }
 
 // DefaultLimits are the limits of DESIGN section 8.
-var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_000_000, IdempotencyLease: 30 * time.Second}
+var DefaultLimits = Limits{JSONBytes: 1 << 20, LogBytes: 64 << 20, LogRows: 2_000_000, IdempotencyLease: 30 * time.Second,
+	RatePerKey: defaultRatePerKey, RatePerAddr: defaultRatePerAddr, AuthFailures: defaultAuthFailures,
+	AuthLockout: defaultAuthLockout, Ingests: defaultIngests, MinBodyRate: defaultMinBodyRate, BodyGrace: bodyGrace}
 
 // Server holds the handlers' dependencies.
 type Server struct {
@@ -45,6 +104,7 @@ type Server struct {
 	health  *health.Service
 	prog    *schedule.Programme
 	metrics *metrics
+	limit   *limiters
 	engine  *gin.Engine
 }
 
@@ -145,20 +205,9 @@ var Routes = []Route{
 // New builds the server and its router. prog may be nil for the default
 // programme (the app passes the one whose status changes feed the outbox).
 func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme) *Server {
-	if limits.JSONBytes == 0 {
-		limits.JSONBytes = DefaultLimits.JSONBytes
-	}
-	if limits.LogBytes == 0 {
-		limits.LogBytes = DefaultLimits.LogBytes
-	}
-	if limits.LogRows == 0 {
-		limits.LogRows = DefaultLimits.LogRows
-	}
-	if limits.IdempotencyLease <= 0 {
-		limits.IdempotencyLease = DefaultLimits.IdempotencyLease
-	}
+	limits = limits.withDefaults()
 	hs := health.New(db)
-	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics()}
+	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics(), limit: newLimiters(limits)}
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
@@ -172,7 +221,10 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	e := gin.New()
 	e.HandleMethodNotAllowed = true
 	e.ContextWithFallback = true
-	e.Use(s.metrics.observe(), s.recovery(), s.requestID(), s.checkQuery())
+	if err := e.SetTrustedProxies(limits.TrustedProxies); err != nil {
+		log.Error("trusted proxies", "err", err) // checked at start-up by the command
+	}
+	e.Use(s.metrics.observe(), s.recovery(), s.requestID(), s.limitAddr(), s.minBodyRate(), s.checkQuery())
 	for _, r := range Routes {
 		h := r.handler
 		chain := []gin.HandlerFunc{}
@@ -183,6 +235,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 			limit := limits.JSONBytes
 			if r.Path == "/v1/flights" {
 				limit = limits.LogBytes + limits.JSONBytes
+				chain = append(chain, s.capIngests()) // before any of the body is read
 			}
 			chain = append(chain, s.idempotency(limit))
 		}
@@ -264,6 +317,13 @@ func (s *Server) requestID() gin.HandlerFunc {
 // working at once) and the role the route needs, and sets the audit actor.
 func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 	return func(c *gin.Context) {
+		addr := c.ClientIP()
+		if s.limit.auth != nil {
+			if locked, wait := s.limit.auth.lockedOut(addr); locked {
+				s.fail(c, tooMany("too many failed authentications from this address", wait))
+				return
+			}
+		}
 		h := c.GetHeader("Authorization")
 		token, ok := strings.CutPrefix(h, "Bearer ")
 		if !ok || strings.TrimSpace(token) == "" {
@@ -272,6 +332,13 @@ func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 		}
 		k, err := s.db.Authenticate(c.Request.Context(), strings.TrimSpace(token))
 		if err != nil {
+			if s.limit.auth != nil && fleet.ErrorCode(err) == fleet.EUNAUTHORIZED {
+				s.limit.auth.failed(addr, s.limit.authWindow)
+			}
+			s.fail(c, err)
+			return
+		}
+		if err := s.limitKey(k.ID); err != nil {
 			s.fail(c, err)
 			return
 		}

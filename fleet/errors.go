@@ -20,6 +20,8 @@ const (
 	EPRECONDREQ    = "precondition_required"
 	ETOOLARGE      = "too_large"
 	EUNAVAILABLE   = "unavailable" // the database or another dependency is down
+	ETOOMANY       = "too_many_requests"
+	ETIMEOUT       = "timeout" // the request body arrived too slowly
 	EINTERNAL      = "internal"
 )
 

@@ -53,7 +53,7 @@ func ConfigFromEnv() (Config, error) {
 	c.WebhooksAllowLoopback = os.Getenv("ROTORWRIGHT_WEBHOOKS_ALLOW_LOOPBACK") == "true"
 	c.CronRecompute = os.Getenv("ROTORWRIGHT_CRON_RECOMPUTE")
 	c.CronNightly = os.Getenv("ROTORWRIGHT_CRON_NIGHTLY")
-	if err := envDuration("ROTORWRIGHT_IDEMPOTENCY_LEASE", &c.Limits.IdempotencyLease); err != nil {
+	if err := c.limitsFromEnv(); err != nil {
 		return c, err
 	}
 	if v := os.Getenv("ROTORWRIGHT_LOG_LEVEL"); v != "" {

@@ -7,6 +7,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/sim"
 )
@@ -16,7 +17,9 @@ import (
 // would look: the due list, readiness, health, work records and the trace.
 func TestDemoEndToEnd(t *testing.T) {
 	t.Parallel()
-	app, addr, _ := startApp(t, Config{DatabaseURL: pgtest.NewDB(t)})
+	// The walk reads as fast as it can with one key from one address: no
+	// rate limits here (they have tests of their own in api).
+	app, addr, _ := startApp(t, Config{DatabaseURL: pgtest.NewDB(t), Limits: api.Limits{RatePerKey: -1, RatePerAddr: -1}})
 	token, err := runDemo(context.Background(), app, 2)
 	if err != nil {
 		t.Fatal(err)
