@@ -1,9 +1,11 @@
 package api_test
 
 import (
+	"net/http/httptest"
 	"strings"
 	"testing"
 
+	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 )
 
@@ -24,5 +26,51 @@ func TestMetricsCountByRouteTemplate(t *testing.T) {
 	}
 	if !strings.Contains(body, "rotorwright_http_request_duration_seconds_bucket") {
 		t.Fatal("no duration histogram")
+	}
+}
+
+// An unknown method is counted under one fixed label, never a new series
+// per method (before the fix each made-up method added a series forever).
+func TestMetricsLabelsAreBounded(t *testing.T) {
+	e := newEnv(t)
+	for _, m := range []string{"FOO", "BAR", "PROPFIND"} {
+		e.call(m, "/v1/airframes", fleet.RoleViewer, nil)
+	}
+	body := string(e.call("GET", "/metrics", "", nil).Body)
+	for _, m := range []string{"FOO", "BAR", "PROPFIND"} {
+		if strings.Contains(body, `method="`+m+`"`) {
+			t.Fatalf("method %s got its own series", m)
+		}
+	}
+	if !strings.Contains(body, `rotorwright_http_requests_total{code="405",method="other",route="unmatched"} 3`) &&
+		!strings.Contains(body, `method="other"`) {
+		t.Fatalf("unknown methods not counted as other:\n%s", body)
+	}
+}
+
+// /metrics can require a token, or move to an address of its own.
+func TestMetricsAccess(t *testing.T) {
+	e := newEnv(t)
+	l := api.DefaultLimits
+	l.MetricsToken = "m3trics-s3cret"
+	srv := api.New(e.db, e.log, l, nil)
+	e.h = srv.Handler()
+	if r := e.call("GET", "/metrics", "", nil); r.Status != 401 {
+		t.Fatalf("without the token: %d", r.Status)
+	}
+	e.tokens["metrics"] = "m3trics-s3cret"
+	if r := e.call("GET", "/metrics", "metrics", nil); r.Status != 200 {
+		t.Fatalf("with the token: %d", r.Status)
+	}
+	l.MetricsToken, l.MetricsElsewhere = "", true
+	srv = api.New(e.db, e.log, l, nil)
+	e.h = srv.Handler()
+	if r := e.call("GET", "/metrics", "", nil); r.Status != 404 {
+		t.Fatalf("metrics elsewhere, on the API address: %d", r.Status)
+	}
+	rec := httptest.NewRecorder()
+	srv.MetricsHandler().ServeHTTP(rec, httptest.NewRequest("GET", "/metrics", nil))
+	if rec.Code != 200 || !strings.Contains(rec.Body.String(), "rotorwright_http_requests_total") {
+		t.Fatalf("the metrics handler: %d", rec.Code)
 	}
 }

@@ -47,6 +47,11 @@ type Limits struct {
 	// TrustedProxies may set X-Forwarded-For; none by default, so the
 	// per-address limits see the connection's own address.
 	TrustedProxies []string
+	// MetricsToken, when set, must be sent as a bearer token to read
+	// /metrics; MetricsElsewhere takes /metrics off the API's address
+	// (the command serves MetricsHandler on an address of its own).
+	MetricsToken     string
+	MetricsElsewhere bool
 }
 
 // withDefaults fills zero fields with the defaults; negative rates and

@@ -216,6 +216,30 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 	}, nil
 }
 
+// serveMetrics serves /metrics on the metrics address of its own (kept off
+// the API's address, e.g. reachable only from the monitoring network).
+func (a *App) serveMetrics(srv *api.Server) (stop func(), err error) {
+	ln, err := net.Listen("tcp", a.cfg.MetricsAddr)
+	if err != nil {
+		return nil, fmt.Errorf("listen %s (metrics): %w", a.cfg.MetricsAddr, err)
+	}
+	mux := http.NewServeMux()
+	mux.Handle("GET /metrics", srv.MetricsHandler())
+	ms := &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second, ReadTimeout: 30 * time.Second,
+		WriteTimeout: 30 * time.Second}
+	a.log.Info("metrics listening", "addr", ln.Addr().String())
+	go func() {
+		if err := ms.Serve(ln); !errors.Is(err, http.ErrServerClosed) {
+			a.log.Error("metrics server", "err", err)
+		}
+	}()
+	return func() {
+		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		defer cancel()
+		_ = ms.Shutdown(ctx)
+	}, nil
+}
+
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
 	if n, err := a.DB.StaleLogs(ctx, ingest.AnalysisVersion); err != nil {
@@ -230,7 +254,9 @@ func (a *App) Run(ctx context.Context) error {
 		return err
 	}
 	defer stopSchedule() // after the server drains: shutdown order per STYLE 14
-	srv := api.New(a.DB, a.log, a.cfg.Limits, prog)
+	limits := a.cfg.Limits
+	limits.MetricsElsewhere = a.cfg.MetricsAddr != ""
+	srv := api.New(a.DB, a.log, limits, prog)
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,
@@ -250,6 +276,13 @@ func (a *App) Run(ctx context.Context) error {
 		}
 	}
 	a.log.Info("listening", "addr", addr)
+	if a.cfg.MetricsAddr != "" {
+		stop, err := a.serveMetrics(srv)
+		if err != nil {
+			return err
+		}
+		defer stop()
+	}
 	a.Addr <- addr
 	errc := make(chan error, 1)
 	go func() { errc <- a.server.Serve(ln) }()

@@ -34,6 +34,10 @@ type Config struct {
 	// Limits bound requests (sizes, leases, rates); zero fields take the
 	// API's defaults.
 	Limits api.Limits
+	// MetricsAddr, when set, serves /metrics there instead of on Addr.
+	MetricsAddr string
+	// WebhookSecret signs webhook deliveries (HMAC-SHA256).
+	WebhookSecret string
 }
 
 // ConfigFromEnv reads the environment.

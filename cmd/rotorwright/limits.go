@@ -46,6 +46,9 @@ func (c *Config) limitsFromEnv() error {
 			*f.dst = n
 		}
 	}
+	c.MetricsAddr = os.Getenv("ROTORWRIGHT_METRICS_ADDR")
+	l.MetricsToken = os.Getenv("ROTORWRIGHT_METRICS_TOKEN")
+	c.WebhookSecret = os.Getenv("ROTORWRIGHT_WEBHOOK_SECRET")
 	for _, p := range strings.Split(os.Getenv("ROTORWRIGHT_TRUSTED_PROXIES"), ",") {
 		if p = strings.TrimSpace(p); p != "" {
 			l.TrustedProxies = append(l.TrustedProxies, p)
@@ -71,6 +74,14 @@ func (c *Config) bindLimits(fs *pflag.FlagSet) {
 		fmt.Sprintf("log uploads processed at once; more get 503 with Retry-After (env ROTORWRIGHT_MAX_INGESTS; default %d)", d.Ingests))
 	fs.IntVar(&l.MinBodyRate, "min-body-rate", l.MinBodyRate,
 		fmt.Sprintf("bytes per second a request body must average after the first %s, else 408; negative: none (env ROTORWRIGHT_MIN_BODY_RATE; default %d)", d.BodyGrace, d.MinBodyRate))
+	fs.StringVar(&c.MetricsAddr, "metrics-addr", c.MetricsAddr,
+		"serve /metrics on this address instead of the API's (env ROTORWRIGHT_METRICS_ADDR)")
+	fs.StringVar(&l.MetricsToken, "metrics-token", l.MetricsToken,
+		"bearer token /metrics requires (env ROTORWRIGHT_METRICS_TOKEN; default none)")
+	hideDefault(fs, "metrics-token")
+	fs.StringVar(&c.WebhookSecret, "webhook-secret", c.WebhookSecret,
+		"secret that signs webhook deliveries, HMAC-SHA256 (env ROTORWRIGHT_WEBHOOK_SECRET; default: unsigned)")
+	hideDefault(fs, "webhook-secret")
 	fs.StringSliceVar(&l.TrustedProxies, "trusted-proxy", l.TrustedProxies,
 		"address or CIDR of a reverse proxy whose X-Forwarded-For is believed, repeatable (env ROTORWRIGHT_TRUSTED_PROXIES, comma-separated; default none)")
 }
