@@ -70,6 +70,9 @@ type Deliverer struct {
 	Batch       int              // most rows one DeliverOnce handles; 0 means 100
 	Now         func() time.Time // clock for due times; nil means time.Now (tests pass a fake)
 	Logger      *slog.Logger
+	// SigningKey, when set, signs every delivery (see Sign); without it
+	// deliveries go unsigned.
+	SigningKey []byte
 }
 
 // DefaultBackoff is exponential backoff with "equal jitter": the delay
@@ -232,6 +235,13 @@ func (d *Deliverer) post(ctx context.Context, url string, id uuid.UUID, attempt 
 	req.Header.Set(HeaderIdempotencyKey, id.String())
 	req.Header.Set(HeaderDelivery, id.String())
 	req.Header.Set(HeaderAttempt, strconv.Itoa(attempt))
+	if d.SigningKey != nil {
+		// Signed at each attempt, so the timestamp is fresh on a retry.
+		now := time.Now()
+		req.Header.Set(HeaderWebhookID, id.String())
+		req.Header.Set(HeaderWebhookTimestamp, strconv.FormatInt(now.Unix(), 10))
+		req.Header.Set(HeaderWebhookSignature, Sign(d.SigningKey, id.String(), now, body))
+	}
 	resp, err := d.client().Do(req)
 	if err != nil {
 		return fmt.Errorf("POST %s: %w", url, err)

@@ -193,6 +193,14 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 			return nil, fmt.Errorf("ROTORWRIGHT_WEBHOOKS: %w", err)
 		}
 	}
+	var key []byte
+	if a.cfg.WebhookSecret != "" {
+		if key, err = schedule.SigningKey(a.cfg.WebhookSecret); err != nil {
+			return nil, fmt.Errorf("ROTORWRIGHT_WEBHOOK_SECRET: %w", err)
+		}
+	} else if len(a.cfg.Webhooks) > 0 {
+		a.log.Warn("webhook deliveries are unsigned: set ROTORWRIGHT_WEBHOOK_SECRET so receivers can verify them")
+	}
 	r.Start()
 	dctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	done := make(chan struct{})
@@ -202,7 +210,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 			return
 		}
 		d := &schedule.Deliverer{Pool: a.DB.Pool(), URLs: a.cfg.Webhooks, Logger: a.log,
-			Client: schedule.NewClient(policy, 10*time.Second)}
+			Client: schedule.NewClient(policy, 10*time.Second), SigningKey: key}
 		d.Run(dctx, 10*time.Second)
 	}()
 	return func() {
