@@ -23,8 +23,10 @@ import (
 // so that `rotorwright reanalyze` knows what is stale. 2: mean_power_w is
 // the airborne mean (log_mean_power_w the whole log's), vibration high-pass
 // from the sample rate with the rotor's resolvability, load spectra split
-// per interval, per-cell minima and per-pack figures in the metrics.
-const AnalysisVersion = 2
+// per interval, per-cell minima and per-pack figures in the metrics. 3:
+// blank cells in optional columns are no reading (figures from the
+// readings present, min_cells_v entries nullable, warnings of thin columns).
+const AnalysisVersion = 3
 
 // Ingester ingests logs into the store.
 type Ingester struct {
@@ -115,7 +117,8 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		}
 	}
 	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz,
-		RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Analysis: a, ColumnMap: rd.Map})
+		RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Blank: log.Blank, Analysis: a,
+		ColumnMap: rd.Map})
 	if err != nil {
 		return Result{}, err
 	}

@@ -73,18 +73,18 @@ type MotorRun struct {
 // it); another pack's is the bus minimum over its cells in series, a mean
 // cell, as MinCellSource says.
 type PackFigures struct {
-	PartID        string    `json:"part_id"`
-	Serial        string    `json:"serial"`
-	Slot          int       `json:"slot"`
-	Share         float64   `json:"share"`
-	ChargeMah     float64   `json:"charge_mah"`
-	EnergyWh      float64   `json:"energy_wh"`
-	MinCellV      *float64  `json:"min_cell_v"`
-	MinCellSource string    `json:"min_cell_source,omitempty"`
-	MinCellsV     []float64 `json:"min_cells_v,omitempty"`
-	RestVStart    *float64  `json:"rest_v_start"`
-	RestVEnd      *float64  `json:"rest_v_end"`
-	IRmOhm        *float64  `json:"ir_mohm"`
+	PartID        string     `json:"part_id"`
+	Serial        string     `json:"serial"`
+	Slot          int        `json:"slot"`
+	Share         float64    `json:"share"`
+	ChargeMah     float64    `json:"charge_mah"`
+	EnergyWh      float64    `json:"energy_wh"`
+	MinCellV      *float64   `json:"min_cell_v"`
+	MinCellSource string     `json:"min_cell_source,omitempty"`
+	MinCellsV     []*float64 `json:"min_cells_v,omitempty"`
+	RestVStart    *float64   `json:"rest_v_start"`
+	RestVEnd      *float64   `json:"rest_v_end"`
+	IRmOhm        *float64   `json:"ir_mohm"`
 }
 
 // Analysis is everything computed from one log.
@@ -105,6 +105,8 @@ type LoggedFlight struct {
 	Columns  []string
 	Unknown  []string
 	Samples  int
+	// Blank counts the blank cells per optional column (telemetry.Log.Blank).
+	Blank    map[string]int
 	Analysis *Analysis
 	// ColumnMap is the map (at its version) the log was read through; nil
 	// for the native layout.
@@ -130,6 +132,9 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 	if lf.Unknown == nil {
 		lf.Unknown = []string{}
 	}
+	if lf.Blank == nil {
+		lf.Blank = map[string]int{}
+	}
 	err = db.inTx(ctx, func(tx pgx.Tx) error {
 		if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`, "ingest:"+f.AirframeID); err != nil {
 			return err
@@ -152,10 +157,10 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 		}
 		if _, err := tx.Exec(ctx, `
 			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version,
-				column_map_id, column_map_version)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)`,
+				column_map_id, column_map_version, blank_cells)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`,
 			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version,
-			mapID, mapVersion); err != nil {
+			mapID, mapVersion, lf.Blank); err != nil {
 			return err
 		}
 		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
@@ -326,13 +331,16 @@ func (db *DB) StaleLogs(ctx context.Context, version int) (int, error) {
 
 // LogInfo describes a flight's stored log.
 type LogInfo struct {
-	SHA256          string    `json:"sha256"`
-	Bytes           int64     `json:"bytes"`
-	Samples         int       `json:"samples"`
-	Columns         []string  `json:"columns"`
-	UnknownColumns  []string  `json:"unknown_columns"`
-	AnalysedAt      time.Time `json:"analysed_at"`
-	AnalysisVersion int       `json:"analysis_version"`
+	SHA256         string   `json:"sha256"`
+	Bytes          int64    `json:"bytes"`
+	Samples        int      `json:"samples"`
+	Columns        []string `json:"columns"`
+	UnknownColumns []string `json:"unknown_columns"`
+	// BlankCells counts the blank cells (no reading) per optional column;
+	// a column blank in every row is absent from Columns.
+	BlankCells      map[string]int `json:"blank_cells"`
+	AnalysedAt      time.Time      `json:"analysed_at"`
+	AnalysisVersion int            `json:"analysis_version"`
 	// ColumnMap is the map the log was read through; null for the native layout.
 	ColumnMap *MapRef `json:"column_map"`
 }
@@ -369,12 +377,12 @@ func (db *DB) FlightDetail(ctx context.Context, id string) (*FlightDetail, error
 	var mapID, mapName *string
 	var mapVersion *int
 	err = db.pool.QueryRow(ctx, `
-		SELECT l.sha256, l.raw_bytes, l.samples, l.columns, l.unknown_columns, l.analysed_at, l.analysis_version,
+		SELECT l.sha256, l.raw_bytes, l.samples, l.columns, l.unknown_columns, l.blank_cells, l.analysed_at, l.analysis_version,
 			v.map_id, v.name, v.version
 		FROM flight_logs l
 		LEFT JOIN column_map_versions v ON v.map_id = l.column_map_id AND v.version = l.column_map_version
 		WHERE l.flight_id = $1`, id).
-		Scan(&li.SHA256, &li.Bytes, &li.Samples, &li.Columns, &li.UnknownColumns, &li.AnalysedAt, &li.AnalysisVersion,
+		Scan(&li.SHA256, &li.Bytes, &li.Samples, &li.Columns, &li.UnknownColumns, &li.BlankCells, &li.AnalysedAt, &li.AnalysisVersion,
 			&mapID, &mapName, &mapVersion)
 	switch {
 	case err == nil:

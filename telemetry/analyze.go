@@ -3,6 +3,7 @@ package telemetry
 import (
 	"errors"
 	"math"
+	"slices"
 	"sort"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -20,6 +21,7 @@ const (
 	DefaultIRWindowS         = 0.2   // time between the two samples of a resistance step estimate
 	DefaultVibrationCutoffHz = 2.0   // high-pass corner separating vibration from manoeuvres and gravity, at most a tenth of the Nyquist frequency
 	DefaultLandingWindowS    = 5.0   // seconds before the end of the airborne span searched for touchdown
+	DefaultMaxGapS           = 1.0   // longest time between two readings that blank cells between them are interpolated across
 	minIRSteps               = 5     // fewer step estimates than this give no resistance figure
 	irMinStepFraction        = 0.1   // current step that counts, as a fraction of the log's current range
 	irMinStepA               = 0.5   // and never smaller than this
@@ -56,6 +58,7 @@ type Params struct {
 	IRWindowS         float64 // default DefaultIRWindowS
 	VibrationCutoffHz float64 // default: chosen from the sample rate (vibrationCutoff)
 	LandingWindowS    float64 // default DefaultLandingWindowS
+	MaxGapS           float64 // default DefaultMaxGapS
 }
 
 // validate refuses parameters that are negative or not finite (EINVALID).
@@ -69,6 +72,7 @@ func (p Params) validate() error {
 		{"hard_landing_g", p.HardLandingG}, {"idle_rpm", p.IdleRPM}, {"idle_throttle", p.IdleThrottle},
 		{"rpm_bin_width", p.RPMBinWidth}, {"rest_current_a", p.RestCurrentA}, {"event_sustain_s", p.EventSustainS},
 		{"ir_window_s", p.IRWindowS}, {"vibration_cutoff_hz", p.VibrationCutoffHz}, {"landing_window_s", p.LandingWindowS},
+		{"max_gap_s", p.MaxGapS},
 	}
 	for _, f := range fields {
 		if !(f.v >= 0) || math.IsInf(f.v, 0) {
@@ -98,6 +102,7 @@ func (p Params) withDefaults() Params {
 	def(&p.EventSustainS, DefaultEventSustainS)
 	def(&p.IRWindowS, DefaultIRWindowS)
 	def(&p.LandingWindowS, DefaultLandingWindowS)
+	def(&p.MaxGapS, DefaultMaxGapS)
 	return p
 }
 
@@ -131,9 +136,10 @@ type Metrics struct {
 	// MinCellV is from cell columns, else pack_v / cells_s (MinCellSource says which).
 	MinCellV      *float64 `json:"min_cell_v"`
 	MinCellSource string   `json:"min_cell_source,omitempty"`
-	// MinCellsV is the minimum of each cell column (cell_1_v first); empty
-	// without cell columns.
-	MinCellsV []float64 `json:"min_cells_v"`
+	// MinCellsV is the minimum reading of each cell column (cell_1_v
+	// first), null for a column blank in every row; empty without cell
+	// columns.
+	MinCellsV []*float64 `json:"min_cells_v"`
 	// RestVStart is the median pack voltage at or below RestCurrentA before the
 	// first load; RestVEnd the median over the later half of the final rest.
 	RestVStart *float64 `json:"rest_v_start"`
@@ -167,6 +173,9 @@ type Metrics struct {
 	Motors []MotorRun `json:"motors"`
 	Events []Event    `json:"events"`
 	Notes  []string   `json:"notes"`
+	// Warnings name the figures that rest on a column blank in more than
+	// half the log's samples.
+	Warnings []Warning `json:"warnings"`
 }
 
 // Vibration is the RMS of high-passed body acceleration (m/s^2) over the
@@ -215,6 +224,12 @@ type analysis struct {
 	cutoffExplicit bool // Params.VibrationCutoffHz was given
 	meanRPM        []float64
 	idleRPM        float64
+	// The optional columns with blank cells within MaxGapS of readings
+	// interpolated (see bridge); the log's own series where none is blank.
+	rpm        [][]float64 // per l.RPM
+	throttle   []float64
+	cells      [][]float64 // per l.Cells, nil where the column is absent
+	baro, temp []float64
 }
 
 // Analyze computes the figures of one flight from a parsed log. It is pure.
@@ -229,6 +244,7 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 		cutoffExplicit: p.VibrationCutoffHz > 0}
 	m := a.m
 	m.LogS = l.T[l.Rows-1] - l.T[0]
+	a.bridgeAll()
 	a.activity()
 	a.electrical()
 	a.meanPower()
@@ -241,6 +257,7 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 	a.landing()
 	a.distance()
 	a.events()
+	a.coverage()
 	if err := a.finite(); err != nil {
 		return nil, err
 	}
@@ -254,7 +271,10 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 		m.Notes = []string{}
 	}
 	if m.MinCellsV == nil {
-		m.MinCellsV = []float64{}
+		m.MinCellsV = []*float64{}
+	}
+	if m.Warnings == nil {
+		m.Warnings = []Warning{}
 	}
 	return m, nil
 }
@@ -268,16 +288,12 @@ func (a *analysis) activity() {
 	var idle float64
 	switch {
 	case len(l.RPM) > 0:
-		a.meanRPM = make([]float64, l.Rows)
-		for _, r := range l.RPM {
-			for i, v := range r.RPM {
-				a.meanRPM[i] += v
-			}
-		}
+		a.meanRPM = rotorMean(a.rpm, l.Rows)
 		peak := 0.0
-		for i := range a.meanRPM {
-			a.meanRPM[i] /= float64(len(l.RPM))
-			peak = max(peak, a.meanRPM[i])
+		for _, v := range a.meanRPM {
+			if v > peak {
+				peak = v
+			}
 		}
 		a.idleRPM = a.p.IdleRPM
 		if !(a.idleRPM > 0) {
@@ -285,7 +301,7 @@ func (a *analysis) activity() {
 		}
 		level, idle = a.meanRPM, a.idleRPM
 	case l.Throttle != nil:
-		level, idle = l.Throttle, a.p.IdleThrottle
+		level, idle = a.throttle, a.p.IdleThrottle
 	default:
 		a.note("no rpm or throttle column: run time, airborne span and rotor figures are not computed")
 	}
@@ -293,15 +309,19 @@ func (a *analysis) activity() {
 		on := make([]float64, l.Rows)
 		first, last := -1, -1
 		for i, v := range level {
-			if v > idle {
+			switch {
+			case v > idle:
 				on[i] = 1
 				if first < 0 {
 					first = i
 				}
 				last = i
+			case v != v:
+				on[i] = v // no reading: the time is left out
 			}
 		}
-		m.RunS = ptr(Trapezoid(l.T, on))
+		run, _, _ := integral(l.T, on)
+		m.RunS = ptr(run)
 		a.runLo, a.runHi = first, last
 		if first >= 0 && a.p.Airborne == nil {
 			a.lo, a.hi = liftSpan(level, first, last)
@@ -332,39 +352,22 @@ func (a *analysis) activity() {
 // well under it (common practice: idle at a fifth to two fifths of hover rpm).
 const LiftFraction = 0.8
 
-// liftSpan narrows the run span [first, last] to the samples from the first
-// to the last at or above LiftFraction of the run's median level, so that
-// idling on the ground before take-off and after landing is not airborne.
+// liftSpan narrows the run span [first, last] (both readings) to the
+// samples from the first to the last at or above LiftFraction of the run's
+// median level, so that idling on the ground before take-off and after
+// landing is not airborne. Samples without a reading are passed over.
 func liftSpan(level []float64, first, last int) (lo, hi int) {
-	run := append([]float64(nil), level[first:last+1]...)
+	run := slices.DeleteFunc(slices.Clone(level[first:last+1]), func(v float64) bool { return v != v })
 	sort.Float64s(run)
 	threshold := LiftFraction * run[len(run)/2]
 	lo, hi = first, last
-	for lo < last && level[lo] < threshold {
+	for lo < last && !(level[lo] >= threshold) {
 		lo++
 	}
-	for hi > lo && level[hi] < threshold {
+	for hi > lo && !(level[hi] >= threshold) {
 		hi--
 	}
 	return lo, hi
-}
-
-// air picks the air density: measured when baro and temperature exist, else ISA.
-func (a *analysis) air() {
-	l, m := a.l, a.m
-	if l.Baro != nil && l.Temp != nil {
-		rho := make([]float64, l.Rows)
-		for i := range rho {
-			rho[i] = AirDensity(l.Baro[i], l.Temp[i])
-		}
-		lo, hi := 0, l.Rows-1
-		if a.lo >= 0 {
-			lo, hi = a.lo, a.hi
-		}
-		m.AirDensity, m.AirDensitySource = meanOver(l.T, rho, lo, hi), "baro_temp"
-		return
-	}
-	m.AirDensity, m.AirDensitySource = ISADensity(a.p.SiteElevationM), "isa_site_elevation"
 }
 
 // efficiency compares airborne electrical power with momentum-theory ideal power.
@@ -396,32 +399,12 @@ func (a *analysis) efficiency() {
 	}
 }
 
-// altitude is the greatest pressure altitude above the take-off reference: the
-// median before the airborne span, else over the first second of the log.
-func (a *analysis) altitude() {
-	l := a.l
-	if l.Baro == nil {
-		return
-	}
-	var ref []float64
-	for i, pa := range l.Baro {
-		if (a.lo > 0 && i < a.lo) || (a.lo <= 0 && l.T[i]-l.T[0] <= 1) {
-			ref = append(ref, PressureAltitude(pa))
-		}
-	}
-	top := math.Inf(-1)
-	for _, pa := range l.Baro {
-		top = max(top, PressureAltitude(pa))
-	}
-	a.m.MaxAltM = ptr(top - median(ref))
-}
-
 func (a *analysis) distance() {
 	l := a.l
 	if l.Lat == nil {
 		return
 	}
-	d, r, err := track(l.Lat, l.Lon)
+	d, r, err := track(fixes(l.Lat, l.Lon))
 	if err != nil {
 		a.note("track has a segment the geodesic solver cannot measure: distance is not computed")
 		return
@@ -434,11 +417,14 @@ func (a *analysis) distance() {
 // figure that is not finite is an error, since bounded inputs cannot cause it.
 func (a *analysis) finite() error {
 	m := a.m
-	opt := []**float64{&m.RunS, &m.AirborneFromS, &m.AirborneToS, &m.MinCellV, &m.RestVStart, &m.RestVEnd,
+	opt := []**float64{&m.MinCellV, &m.RunS, &m.AirborneFromS, &m.AirborneToS, &m.RestVStart, &m.RestVEnd,
 		&m.IRMohm, &m.IRCellMohm, &m.HoverRPM, &m.ThrustK, &m.AirbornePowerW, &m.IdealPowerW,
 		&m.EfficiencyIndex, &m.MaxAltM, &m.LandingG, &m.LandingAt, &m.DistanceM, &m.MaxRangeM}
 	for i := range m.IRCellsMohm {
 		opt = append(opt, &m.IRCellsMohm[i])
+	}
+	for i := range m.MinCellsV {
+		opt = append(opt, &m.MinCellsV[i])
 	}
 	if v := m.Vibration; v != nil {
 		opt = append(opt, &v.X, &v.Y, &v.Z, &v.PeakHz, &v.RotorHz)
@@ -463,7 +449,6 @@ func (a *analysis) finite() error {
 		a.note("some figures came out non-finite on this degenerate log and are left null")
 	}
 	req := []float64{m.LogS, m.ChargeMah, m.EnergyWh, m.MeanPowerW, m.LogMeanPowerW, m.PeakPowerW, m.PeakA, m.MinPackV, m.AirDensity}
-	req = append(req, m.MinCellsV...)
 	for _, mr := range m.Motors {
 		req = append(req, mr.Revolutions, mr.RunS)
 		for _, b := range mr.Bins {

@@ -363,7 +363,7 @@ func TestEvents(t *testing.T) {
 		if i == 2 {
 			want = 2.9
 		}
-		near(t, fmt.Sprintf("min cell %d", i+1), &v, want, 1e-4, "construction, 4 decimals in the log")
+		near(t, fmt.Sprintf("min cell %d", i+1), v, want, 1e-4, "construction, 4 decimals in the log")
 	}
 	// A 0.1 s dip is shorter than the 0.5 s needed, and the 40 A sample alone
 	// never counted; with the landing limit raised no event remains.

@@ -50,3 +50,49 @@ func IdealHoverPower(thrustN, rho, diameterM float64) float64 {
 	a := math.Pi * diameterM * diameterM / 4
 	return math.Pow(thrustN, 1.5) / math.Sqrt(2*rho*a)
 }
+
+// air picks the air density: measured when baro and temperature exist
+// (over the airborne span, from the samples with both), else ISA.
+func (a *analysis) air() {
+	l, m := a.l, a.m
+	if a.baro != nil && a.temp != nil {
+		rho := make([]float64, l.Rows)
+		for i := range rho {
+			rho[i] = AirDensity(a.baro[i], a.temp[i]) // NaN where either is blank
+		}
+		lo, hi := a.span()
+		if d := meanOver(l.T, rho, lo, hi); d == d {
+			m.AirDensity, m.AirDensitySource = d, "baro_temp"
+			return
+		}
+		a.note("no sample in the span has both baro_pa and temp_c: air density is the standard atmosphere's at the site elevation")
+	}
+	m.AirDensity, m.AirDensitySource = ISADensity(a.p.SiteElevationM), "isa_site_elevation"
+}
+
+// altitude is the greatest pressure altitude above the take-off reference: the
+// median before the airborne span, else over the first second of the log.
+// Readings only: a blank takes no part.
+func (a *analysis) altitude() {
+	l := a.l
+	if l.Baro == nil {
+		return
+	}
+	var ref []float64
+	for i, pa := range l.Baro {
+		if pa == pa && ((a.lo > 0 && i < a.lo) || (a.lo <= 0 && l.T[i]-l.T[0] <= 1)) {
+			ref = append(ref, PressureAltitude(pa))
+		}
+	}
+	if len(ref) == 0 {
+		a.note("no baro_pa reading before take-off (or in the log's first second): height above take-off is not computed")
+		return
+	}
+	top := math.Inf(-1)
+	for _, pa := range l.Baro {
+		if pa == pa {
+			top = max(top, PressureAltitude(pa))
+		}
+	}
+	a.m.MaxAltM = ptr(top - median(ref))
+}

@@ -25,18 +25,50 @@
 //
 // Unknown columns are ignored (any content, empty included) and reported in
 // Log.Unknown. Every recognised value must be a finite number of magnitude at
-// most 1e12. Refused: a missing required column, a recognised column given
-// twice, lat without lon (or the reverse), cell columns not numbered 1..n, an
-// empty value in a recognised column (leave out a column that has no data
-// rather than leave it blank: figures are never computed from guessed
-// samples), a non-numeric value, NaN or infinity, a value outside its
-// column's range (throttle 0..1; rpm and cell volts >= 0; baro_pa > 0;
-// temp_c above -273.15; lat -90..90; lon -180..180), a row with the wrong
-// number of fields, time that does not increase (an equal time is refused),
-// more data rows or bytes than the Limits, an invalid start time, a metadata
-// key given twice, and a log without a header or without data rows. A refusal is a *fleet.Error with code
-// EUNPROCESSABLE, the physical line (1-based, comments and header counted)
-// and the column at fault.
+// most 1e12, or, in an optional column, blank (empty or spaces): no reading
+// at that sample. Refused: a missing required column, a recognised column
+// given twice, lat without lon (or the reverse) in the header or in a row
+// (a fix has both or neither), cell columns not numbered 1..n, an empty
+// t_s, pack_v or pack_a, a non-numeric value, NaN or infinity (the text "NaN"
+// is not a blank), a value outside its column's range (throttle 0..1; rpm
+// and cell volts >= 0; baro_pa > 0; temp_c above -273.15; lat -90..90; lon
+// -180..180), a row with the wrong number of fields, time that does not
+// increase (an equal time is refused), more data rows or bytes than the
+// Limits, an invalid start time, a metadata key given twice, and a log
+// without a header or without data rows. A refusal is a *fleet.Error with
+// code EUNPROCESSABLE, the physical line (1-based, comments and header
+// counted) and the column at fault.
+//
+// # Blank cells
+//
+// Loggers leave optional cells blank (no GPS fix yet, a sensor reporting
+// every other row, a dropped telemetry frame). Inside this package a blank
+// is NaN in its series (a value in the log itself never is), and Log.Blank
+// counts the blanks per column by the service's column name (through a
+// column map, the target's). A column blank in every row is treated as
+// absent: its series nil, left out of Log.Columns (a cell column keeps its
+// place in Log.Cells, nil), its figures null. Analyze computes every figure
+// from the readings present:
+//
+//   - minima, maxima and medians over the readings only;
+//   - rotor speed, throttle, cell volts, pressure and temperature: a blank
+//     stretch between two readings at most Params.MaxGapS apart (default
+//     1 s) is taken as linear between them (the trapezoidal rule's own
+//     assumption between samples), so integrals (revolutions, load spectra,
+//     run time) and per-sample combinations (mean rotor speed, lowest cell,
+//     air density) span it; a longer gap is left out of every integral and
+//     mean (a note gives the time lost), never filled;
+//   - distance and range fix to fix, across any blank;
+//   - height above take-off from the pressure readings, with a reading
+//     before take-off (else null, noted); air density over the samples with
+//     both pressure and temperature (else the standard atmosphere, noted);
+//   - vibration high-passed over each run of consecutive acceleration
+//     readings on its own, never across a blank; landing load the peak over
+//     the samples with all three axes;
+//   - resistance per cell from steps whose both ends are readings.
+//
+// Metrics.Warnings names the figures resting on a column with readings in
+// fewer than half of the log's samples.
 //
 // Example:
 //
@@ -78,7 +110,7 @@
 // against momentum-theory ideal power, air density, height above take-off,
 // vibration, landing load, distance flown, and detected events. A figure
 // whose inputs are missing is null, never guessed; Metrics.Notes say what was
-// left out and why.
+// left out and why, Metrics.Warnings which figures rest on thin columns.
 //
 // Definitions a technician reads: mean_power_w is the mean while airborne
 // (over the run span when there is no airborne span, over the whole log

@@ -23,24 +23,23 @@ func (a *analysis) electrical() {
 	m.EnergyWh = Trapezoid(l.T, pw) / 3600
 	m.LogMeanPowerW = meanOver(l.T, pw, 0, l.Rows-1)
 
+	// Minima over the readings only, so exactly the least value logged.
+	lowest := math.Inf(1)
 	for _, c := range l.Cells {
-		lo := math.Inf(1)
-		for _, v := range c {
-			lo = min(lo, v)
+		lo, _, ok := extremes(c)
+		if !ok {
+			m.MinCellsV = append(m.MinCellsV, nil)
+			continue
 		}
-		m.MinCellsV = append(m.MinCellsV, lo)
+		m.MinCellsV = append(m.MinCellsV, ptr(lo))
+		lowest = min(lowest, lo)
 	}
-	if cv := a.cellVoltage(); cv != nil {
-		lo := math.Inf(1)
-		for _, v := range cv {
-			lo = min(lo, v)
-		}
-		m.MinCellV = ptr(lo)
-		m.MinCellSource = "cells"
-		if l.Cells == nil {
-			m.MinCellSource = "pack_v/cells_s"
-		}
-	} else {
+	switch {
+	case l.Cells != nil:
+		m.MinCellV, m.MinCellSource = ptr(lowest), "cells"
+	case p.CellsS > 0:
+		m.MinCellV, m.MinCellSource = ptr(m.MinPackV/float64(p.CellsS)), "pack_v/cells_s"
+	default:
 		a.note("no cell columns and cells_s unknown: minimum cell voltage is not computed")
 	}
 
@@ -91,8 +90,9 @@ func (a *analysis) meanPower() {
 	m.MeanPowerW, m.MeanPowerSource = meanOver(l.T[lo:hi+1], pw, 0, len(pw)-1), src
 }
 
-// cellVoltage is the lowest cell voltage at each sample, from cell columns,
-// else pack_v / cells_s; nil when neither is known.
+// cellVoltage is the lowest cell voltage at each sample, from cell columns
+// (the lowest of those with a reading, short gaps bridged; NaN where none
+// has), else pack_v / cells_s; nil when neither is known.
 func (a *analysis) cellVoltage() []float64 {
 	l := a.l
 	out := make([]float64, l.Rows)
@@ -101,9 +101,16 @@ func (a *analysis) cellVoltage() []float64 {
 		for i := range out {
 			out[i] = math.Inf(1)
 		}
-		for _, c := range l.Cells {
+		for _, c := range a.cells {
 			for i, v := range c {
-				out[i] = min(out[i], v)
+				if v < out[i] {
+					out[i] = v
+				}
+			}
+		}
+		for i, v := range out {
+			if math.IsInf(v, 1) {
+				out[i] = math.NaN()
 			}
 		}
 	case a.p.CellsS > 0:
@@ -149,8 +156,11 @@ func (a *analysis) resistance() {
 			continue
 		}
 		pack = append(pack, -(l.PackV[j]-l.PackV[i])/di)
+		// Cell steps from readings only: an interpolated value would blur the step.
 		for k, c := range l.Cells {
-			cells[k] = append(cells[k], -(c[j]-c[i])/di)
+			if c != nil && c[i] == c[i] && c[j] == c[j] {
+				cells[k] = append(cells[k], -(c[j]-c[i])/di)
+			}
 		}
 	}
 	m.IRSteps = len(pack)
@@ -172,7 +182,9 @@ func (a *analysis) resistance() {
 		m.IRCellMohm = ptr(r * 1000 / float64(s))
 	}
 	for _, c := range cells {
-		if rc := median(c); rc > 0 {
+		if len(c) < minIRSteps {
+			m.IRCellsMohm = append(m.IRCellsMohm, nil)
+		} else if rc := median(c); rc > 0 {
 			m.IRCellsMohm = append(m.IRCellsMohm, ptr(rc*1000))
 		} else {
 			m.IRCellsMohm = append(m.IRCellsMohm, nil)

@@ -57,6 +57,8 @@ func FuzzParseMapped(f *testing.F) {
 	f.Add([]byte("\xEF\xBB\xBFT,V,A,R,thr,C1,P,F,Z,la,lo\n1715679000000000,16800,-1250,0,0,4200,1013.25,59,1000,471234567,84000000\n"+
 		"1715679000020000,\"16,7\",-1250,4000,55,4100,1013.2,59.5,1020,471234568,84000001\n"), uint8(3))
 	f.Add([]byte("T;V;A\n1;2;3\n"), uint8(1))
+	f.Add([]byte("T,V,A,R,thr,C1,P,F,Z,la,lo\n1715679000000000,16800,-1250,,0,,1013.25,,1000,,\n"+
+		"1715679000020000,16700,-1250,4000,,4100,,59.5,,471234568,84000001\n"), uint8(3))
 	lim := Limits{MaxRows: 5000, MaxBytes: 1 << 18}
 	f.Fuzz(func(t *testing.T, data []byte, which uint8) {
 		l, err := ParseMapped(bytes.NewReader(data), maps[int(which)%len(maps)], lim)

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -19,6 +20,8 @@ func FuzzParse(f *testing.F) {
 	f.Add([]byte("t_s,pack_v,pack_a\n0,12,1\n1,12,2\n"))
 	f.Add([]byte("# start: 2026-01-01T00:00:00Z\r\nt_s,pack_v,pack_a,throttle,acc_x,acc_y,acc_z\r\n0,12,1,0,0,0,9.8\r\n0.1,12,5,0.5,1,0,30\r\n"))
 	f.Add([]byte("t_s,pack_v,pack_a,rpm_m1,lat,lon,baro_pa,temp_c,cell_1_v\n0,4,0,0,47,8,101325,15,4\n1,3.9,3,5000,47.001,8,101300,15,3.9\n2,4,0,0,47,8,101325,15,4\n"))
+	f.Add([]byte("t_s,pack_v,pack_a,rpm_m1,lat,lon,baro_pa,temp_c,cell_1_v,cell_2_v,acc_x,acc_y,acc_z\n0,4,0,0,,,101325,15,4,,0,0,9.8\n" +
+		"1,3.9,3,,47.001,8,,15,3.9,,,0,12\n2,4,0,5000,47,8,101325,,,,1,0,9.8\n3,4,0,0,,,101325,15,4,,0,,9.8\n"))
 	lim := Limits{MaxRows: 5000, MaxBytes: 1 << 18}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		l, err := Parse(bytes.NewReader(data), lim)
@@ -54,11 +57,18 @@ func checkParsed(t *testing.T, data []byte, l *Log, err error, lim Limits) {
 			t.Fatalf("time not increasing at row %d: %v then %v", i, l.T[i-1], l.T[i])
 		}
 	}
+	// Every series has Rows samples; only optional ones hold NaN (a blank
+	// cell), as many as Log.Blank counts, never in every row, and lat and
+	// lon are blank together.
+	names := []string{"t_s", "pack_v", "pack_a", "throttle", "baro_pa", "temp_c", "acc_x", "acc_y", "acc_z", "lat", "lon"}
 	series := [][]float64{l.T, l.PackV, l.PackA, l.Throttle, l.Baro, l.Temp, l.AccX, l.AccY, l.AccZ, l.Lat, l.Lon}
-	series = append(series, l.Cells...)
-	for _, r := range l.RPM {
-		series = append(series, r.RPM)
+	for i, c := range l.Cells {
+		names, series = append(names, fleet.CellColumnName(i+1)), append(series, c)
 	}
+	for _, r := range l.RPM {
+		names, series = append(names, "rpm_"+r.Position), append(series, r.RPM)
+	}
+	blanks := 0
 	for k, s := range series {
 		if s == nil && k < 3 {
 			t.Fatalf("required series %d missing", k)
@@ -66,11 +76,32 @@ func checkParsed(t *testing.T, data []byte, l *Log, err error, lim Limits) {
 		if s != nil && len(s) != l.Rows {
 			t.Fatalf("series %d has %d samples, log has %d rows", k, len(s), l.Rows)
 		}
-		for _, v := range s {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				t.Fatalf("non-finite value %v accepted", v)
+		nan := 0
+		for i, v := range s {
+			if math.IsInf(v, 0) || (math.IsNaN(v) && k < 3) {
+				t.Fatalf("value %v accepted in %s", v, names[k])
+			}
+			if math.IsNaN(v) {
+				nan++
+			}
+			if names[k] == "lat" && math.IsNaN(v) != math.IsNaN(l.Lon[i]) {
+				t.Fatalf("row %d: lat %v, lon %v", i, v, l.Lon[i])
 			}
 		}
+		if s != nil && (nan != l.Blank[names[k]] || nan == l.Rows) {
+			t.Fatalf("%s: %d blanks, Blank says %d, rows %d", names[k], nan, l.Blank[names[k]], l.Rows)
+		}
+		blanks += nan
+	}
+	for c, n := range l.Blank {
+		if n == l.Rows {
+			blanks += n // a column blank throughout is absent
+		} else if !slices.Contains(l.Columns, c) {
+			t.Fatalf("column %s with blanks is not in Columns %v", c, l.Columns)
+		}
+	}
+	if want := sumValues(l.Blank); blanks != want {
+		t.Fatalf("%d blanks in the series, Blank counts %d", blanks, want)
 	}
 	m, err := Analyze(l, Params{MassKg: 1.5, RotorDiameterM: 0.25, CellsS: 4, Chemistry: fleet.LiPo, RatedMah: 5000, CRating: 20})
 	if err != nil {
@@ -79,4 +110,12 @@ func checkParsed(t *testing.T, data []byte, l *Log, err error, lim Limits) {
 	if _, err := json.Marshal(m); err != nil {
 		t.Fatalf("metrics do not encode: %v", err)
 	}
+}
+
+func sumValues(m map[string]int) int {
+	n := 0
+	for _, v := range m {
+		n += v
+	}
+	return n
 }

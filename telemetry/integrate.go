@@ -2,6 +2,7 @@ package telemetry
 
 import (
 	"fmt"
+	"math"
 	"slices"
 )
 
@@ -19,18 +20,94 @@ func Trapezoid(t, y []float64) float64 {
 	return s / 2
 }
 
-// trapezoidRange integrates y over samples lo..hi inclusive.
-func trapezoidRange(t, y []float64, lo, hi int) float64 {
-	return Trapezoid(t[lo:hi+1], y[lo:hi+1])
+// integral is the trapezoidal integral of y over the intervals whose both
+// ends have a reading (y not NaN), and the time those intervals cover;
+// gap says whether any interval was left out.
+func integral(t, y []float64) (s, covered float64, gap bool) {
+	for i := 1; i < len(t); i++ {
+		a, b := y[i-1], y[i]
+		if a != a || b != b {
+			gap = true
+			continue
+		}
+		s += (t[i] - t[i-1]) * (a + b)
+		covered += t[i] - t[i-1]
+	}
+	return s / 2, covered, gap
 }
 
-// meanOver is the time-weighted mean of y over samples lo..hi inclusive; a
-// single sample is its own mean.
+// meanOver is the time-weighted mean of y over samples lo..hi inclusive,
+// over the intervals whose both ends have a reading; a lone reading is its
+// own mean, and no reading gives NaN.
 func meanOver(t, y []float64, lo, hi int) float64 {
-	if hi <= lo {
-		return y[lo]
+	s, covered, gap := integral(t[lo:hi+1], y[lo:hi+1])
+	switch {
+	case !gap && hi > lo:
+		return s / (t[hi] - t[lo])
+	case covered > 0:
+		return s / covered
 	}
-	return trapezoidRange(t, y, lo, hi) / (t[hi] - t[lo])
+	// No interval: the mean of the readings (one, or isolated ones).
+	var sum float64
+	n := 0
+	for _, v := range y[lo : hi+1] {
+		if v == v {
+			sum += v
+			n++
+		}
+	}
+	return sum / float64(n) // NaN when n is 0
+}
+
+// bridge fills the blanks (NaN) of y that lie between two readings at most
+// maxGapS apart by linear interpolation in time, so that figures combining
+// columns sample by sample, and integrals, span short dropouts; blanks in
+// longer gaps, and before the first or after the last reading, stay NaN. A
+// linear fill never goes beyond its two readings, so extremes over the
+// filled series are extremes over the readings. y itself is returned when
+// it has no blank; uncovered is the time in intervals still touching a blank.
+func bridge(t, y []float64, maxGapS float64) (out []float64, uncovered float64) {
+	first := slices.IndexFunc(y, func(v float64) bool { return v != v })
+	if first < 0 {
+		return y, 0
+	}
+	out = slices.Clone(y)
+	prev := -1 // last reading
+	for i := range out {
+		if out[i] != out[i] {
+			continue
+		}
+		if prev >= 0 && i > prev+1 && t[i]-t[prev] <= maxGapS {
+			a, b := out[prev], out[i]
+			lo, hi := min(a, b), max(a, b)
+			for k := prev + 1; k < i; k++ {
+				// Clamped, so rounding cannot step past either reading.
+				out[k] = min(hi, max(lo, a+(b-a)*(t[k]-t[prev])/(t[i]-t[prev])))
+			}
+		}
+		prev = i
+	}
+	for i := 1; i < len(out); i++ {
+		if out[i] != out[i] || out[i-1] != out[i-1] {
+			uncovered += t[i] - t[i-1]
+		}
+	}
+	return out, uncovered
+}
+
+// extremes are the least and greatest readings of y (NaN blanks skipped);
+// ok is false when there is none.
+func extremes(y []float64) (lo, hi float64, ok bool) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, v := range y {
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+	}
+	return lo, hi, lo <= hi
 }
 
 // median returns the median of xs without changing xs.

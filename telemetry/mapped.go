@@ -138,6 +138,7 @@ func ParseMapped(r io.Reader, m *fleet.ColumnMap, lim Limits) (*Log, error) {
 	if p.log.Rows == 0 {
 		return nil, p.refuse(p.line, "", "the log has no data rows")
 	}
+	p.finish()
 	return p.log, nil
 }
 
@@ -276,7 +277,7 @@ func (p *mapParser) parseHeader(rec []byte) error {
 		e.Field += " (maps to " + col + ")"
 		return e
 	}
-	p.tcol = l.bind(p.cols)
+	p.bindAll()
 	return nil
 }
 
@@ -309,6 +310,9 @@ func (p *mapParser) row(rec []byte) error {
 		}
 		*c.dst = append(*c.dst, v)
 	}
+	if k := p.halfFix(); k >= 0 {
+		return p.refuseCol(k, halfFixText)
+	}
 	t := l.T[len(l.T)-1]
 	if l.Rows > 0 && !(t > p.prevT) {
 		return p.refuseCol(p.tcol, fmt.Sprintf("time %.40q (t_s %g) is not after the previous row's (t_s %g)", trimSpace(fs[p.tcol]), t, p.prevT))
@@ -325,7 +329,11 @@ func (p *mapParser) row(rec []byte) error {
 func (p *mapParser) value(k int, f []byte) (float64, error) {
 	f = trimSpace(f)
 	if len(f) == 0 {
-		return 0, p.refuseCol(k, "empty value (leave out a column with no data rather than leaving it blank)")
+		if c := &p.cols[k]; c.opt {
+			c.blank++
+			return math.NaN(), nil
+		}
+		return 0, p.refuseCol(k, "empty value in a required column (only optional columns may be left blank)")
 	}
 	cv := &p.conv[k]
 	var v float64

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"maps"
 	"math"
 	"os"
 	"strings"
@@ -181,6 +182,10 @@ func TestMappedRefusals(t *testing.T) {
 		col, target, what string
 	}{
 		{"empty", head + good(0) + "1715679000020000,,1250,4000,1013.25,59,471234567,84000000\n", 3, "BattVolt_mV", "pack_v", "empty value"},
+		{"empty current", head + good(0) + "1715679000020000,16800, ,4000,1013.25,59,471234567,84000000\n", 3, "BattCurr_cA", "pack_a", "empty value in a required column"},
+		{"empty time", head + good(0) + ",16800,1250,4000,1013.25,59,471234567,84000000\n", 3, "Time(us)", "t_s", "empty time"},
+		{"half a fix", head + good(0) + "1715679000020000,16800,1250,4000,1013.25,59,,84000000\n", 3, "GPS.Lat", "lat", "lat and lon must be blank together"},
+		{"nan in an optional column", head + good(0) + "1715679000020000,16800,1250,NaN,1013.25,59,,\n", 3, "Motor1 RPM", "rpm_m1", "NaN or infinite"},
 		{"nan", head + good(0) + "1715679000020000,16800,NaN,4000,1013.25,59,471234567,84000000\n", 3, "BattCurr_cA", "pack_a", "NaN or infinite"},
 		{"range after scale", head + "1715679000000000,16800,1250,4000,1013.25,59,950000000,84000000\n", 2, "GPS.Lat", "lat", "gives lat 95, outside"},
 		{"negative rpm", head + "1715679000000000,16800,1250,-1,1013.25,59,471234567,84000000\n", 2, "Motor1 RPM", "rpm_m1", "gives rpm_m1 -1"},
@@ -210,6 +215,22 @@ func TestMappedRefusals(t *testing.T) {
 	wantRefusal(t, err, 101, "", "", "larger than the limit")
 	if _, err := telemetry.ParseMapped(strings.NewReader(in), m, telemetry.Limits{MaxBytes: int64(len(in))}); err != nil {
 		t.Errorf("a log of exactly the byte limit: %v", err)
+	}
+}
+
+// Blank cells in mapped optional columns are no reading; the counts are by
+// target column.
+func TestMappedBlankCells(t *testing.T) {
+	m := mapOf(t, groundMap)
+	l := parseMapped(t, m, "Time(us),BattVolt_mV,BattCurr_cA,Motor1 RPM,Press_hPa,OAT_F,GPS.Lat,GPS.Lon\n"+
+		"1715679000000000,16800,1250,,1013.25,59,,\n"+
+		"1715679000020000,16800,1250,4000,,59,\"\",\"\"\n"+
+		"1715679000040000,16800,1250,4100,1013.2,59,471234567,84000000\n")
+	if want := map[string]int{"rpm_m1": 1, "baro_pa": 1, "lat": 2, "lon": 2}; !maps.Equal(l.Blank, want) {
+		t.Errorf("blank %v, want %v", l.Blank, want)
+	}
+	if !math.IsNaN(l.RPM[0].RPM[0]) || l.RPM[0].RPM[1] != 4000 || !math.IsNaN(l.Lat[1]) || l.Lat[2] != 47.1234567 {
+		t.Errorf("rpm %v lat %v", l.RPM[0].RPM, l.Lat)
 	}
 }
 

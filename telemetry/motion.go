@@ -26,18 +26,37 @@ func highPass(t, x []float64, cutoffHz float64) []float64 {
 	return z
 }
 
-// rms is the time-weighted root mean square of y over t.
-func rms(t, y []float64) float64 {
-	w := trapezoidWeights(t)
-	var s, tot float64
-	for i, v := range y {
-		s += w[i] * v * v
-		tot += w[i]
+// piece is a stretch of consecutive readings of one axis.
+type piece struct{ t, y []float64 }
+
+// pieces splits samples lo..hi of x into runs of consecutive readings of at
+// least two samples: a blank cell ends a run, so nothing is filtered across
+// a gap.
+func pieces(t, x []float64, lo, hi int) []piece {
+	var out []piece
+	for i := lo; i <= hi; {
+		if x[i] != x[i] {
+			i++
+			continue
+		}
+		j := i
+		for j < hi && x[j+1] == x[j+1] {
+			j++
+		}
+		if j > i {
+			out = append(out, piece{t[i : j+1], x[i : j+1]})
+		}
+		i = j + 1
 	}
-	if tot == 0 {
-		return math.Abs(y[0])
+	return out
+}
+
+// squares is the trapezoidal integral of y^2 over t, and the time t spans.
+func squares(t, y []float64) (s, span float64) {
+	for i := 1; i < len(t); i++ {
+		s += (t[i] - t[i-1]) * (y[i]*y[i] + y[i-1]*y[i-1]) / 2
 	}
-	return math.Sqrt(s / tot)
+	return s, t[len(t)-1] - t[0]
 }
 
 // span returns the airborne sample range, or the whole log when unknown.
@@ -68,16 +87,31 @@ func (a *analysis) vibration() {
 		a.note("fewer than two samples in the span: vibration is not computed")
 		return
 	}
-	var axes [][]float64
+	// Each run of consecutive readings is high-passed on its own (from rest
+	// at its start, as a span without blanks is), and the RMS is
+	// time-weighted over all runs.
+	var axes []piece
 	axis := func(x []float64) *float64 {
 		if x == nil {
 			return nil
 		}
-		hp := highPass(t, x[lo:hi+1], v.CutoffHz)
-		axes = append(axes, hp)
-		return ptr(rms(t, hp))
+		var s, span float64
+		for _, pc := range pieces(l.T, x, lo, hi) {
+			hp := piece{pc.t, highPass(pc.t, pc.y, v.CutoffHz)}
+			axes = append(axes, hp)
+			ss, sp := squares(hp.t, hp.y)
+			s, span = s+ss, span+sp
+		}
+		if !(span > 0) {
+			return nil
+		}
+		return ptr(math.Sqrt(s / span))
 	}
 	v.X, v.Y, v.Z = axis(l.AccX), axis(l.AccY), axis(l.AccZ)
+	if v.X == nil && v.Y == nil && v.Z == nil {
+		a.note("no two consecutive acceleration readings in the span: vibration is not computed")
+		return
+	}
 	band := fmt.Sprintf("%.3g to %.3g Hz", v.CutoffHz, nyquist)
 	if a.m.HoverRPM != nil {
 		v.RotorHz = ptr(*a.m.HoverRPM / 60)
@@ -91,7 +125,7 @@ func (a *analysis) vibration() {
 		v.Caveat = fmt.Sprintf("rotor frequency unknown (no rpm columns): the figures are broadband (%s)", band)
 	}
 	if v.RotorResolvable == nil || *v.RotorResolvable {
-		if f, ok := spectralPeak(t, axes, v.CutoffHz); ok {
+		if f, ok := spectralPeak(axes, (t[len(t)-1]-t[0])/float64(len(t)-1), v.CutoffHz); ok {
 			v.PeakHz = ptr(f)
 		}
 	}
@@ -104,20 +138,26 @@ func (a *analysis) vibration() {
 // welchSegment is the longest FFT segment of the vibration spectrum.
 const welchSegment = 4096
 
-// spectralPeak resamples each series onto a uniform grid at the mean sample
-// rate (linear interpolation), averages Hann-windowed power spectra of
-// half-overlapping power-of-two segments (Welch's method: a steadier peak
-// than one long FFT, and cheap), sums them over the series and returns the
+// spectralPeak resamples each run onto a uniform grid of step dt (the
+// span's mean sample interval; linear interpolation), averages
+// Hann-windowed power spectra of half-overlapping power-of-two segments
+// within the runs (Welch's method: a steadier peak than one long FFT, and
+// cheap; no segment spans a gap), sums them over the runs and returns the
 // frequency of the strongest line above minHz. Lines above the Nyquist
 // frequency of the log are aliased into it, as usual.
-func spectralPeak(t []float64, series [][]float64, minHz float64) (float64, bool) {
-	n := len(t)
-	if n < 16 || len(series) == 0 {
+func spectralPeak(runs []piece, dt, minHz float64) (float64, bool) {
+	// Grid points of each run; 1e-9 of a step keeps a whole span's last
+	// sample on the grid despite rounding.
+	points := func(r piece) int { return int((r.t[len(r.t)-1]-r.t[0])/dt+1e-9) + 1 }
+	longest := 0
+	for _, r := range runs {
+		longest = max(longest, points(r))
+	}
+	if longest < 16 {
 		return 0, false
 	}
-	dt := (t[n-1] - t[0]) / float64(n-1)
 	seg := 16
-	for seg*2 <= n && seg < welchSegment {
+	for seg*2 <= longest && seg < welchSegment {
 		seg *= 2
 	}
 	win := make([]float64, seg)
@@ -127,13 +167,17 @@ func spectralPeak(t []float64, series [][]float64, minHz float64) (float64, bool
 	fft := fourier.NewFFT(seg)
 	buf := make([]float64, seg)
 	power := make([]float64, seg/2+1)
-	u := make([]float64, n)
+	u := make([]float64, longest)
 	var c []complex128
-	for _, y := range series {
+	for _, r := range runs {
+		t, y, n := r.t, r.y, points(r)
+		if n < seg {
+			continue
+		}
 		j := 0
 		for i := range n {
 			ti := t[0] + float64(i)*dt
-			for j < n-2 && t[j+1] < ti {
+			for j < len(t)-2 && t[j+1] < ti {
 				j++
 			}
 			f := (ti - t[j]) / (t[j+1] - t[j])
@@ -162,7 +206,8 @@ func spectralPeak(t []float64, series [][]float64, minHz float64) (float64, bool
 }
 
 // landing is the peak |acc| in g from LandingWindowS before the end of the
-// airborne span to shortly after it; it needs all three axes.
+// airborne span to shortly after it, over the samples with a reading on all
+// three axes; it needs the three columns.
 func (a *analysis) landing() {
 	l, p := a.l, a.p
 	if l.AccX == nil || l.AccY == nil || l.AccZ == nil {
@@ -182,9 +227,13 @@ func (a *analysis) landing() {
 			continue
 		}
 		g := math.Sqrt(l.AccX[i]*l.AccX[i]+l.AccY[i]*l.AccY[i]+l.AccZ[i]*l.AccZ[i]) / G0
-		if g > peak {
+		if g > peak { // false for a blank (NaN)
 			peak, at = g, t
 		}
+	}
+	if peak < 0 {
+		a.note("no acceleration reading on all three axes around touchdown: landing load is not computed")
+		return
 	}
 	a.m.LandingG, a.m.LandingAt = ptr(peak), ptr(at)
 }

@@ -29,14 +29,27 @@ func (a *analysis) rotors() {
 		return
 	}
 	if a.lo >= 0 {
-		m.HoverRPM = ptr(meanOver(l.T, a.meanRPM, a.lo, a.hi))
+		// The mean over rotors of each rotor's mean over its readings aloft.
+		var sum float64
+		n := 0
+		for _, r := range a.rpm {
+			if v := meanOver(l.T, r, a.lo, a.hi); v == v {
+				sum += v
+				n++
+			}
+		}
+		if n > 0 {
+			m.HoverRPM = ptr(sum / float64(n))
+		}
 		a.thrustConstant()
 	}
-	w := trapezoidWeights(l.T)
-	for _, r := range l.RPM {
-		mr := MotorRun{Position: r.Position, Revolutions: Trapezoid(l.T, r.RPM) / 60, Bins: []RPMBin{}}
+	for k, r := range l.RPM {
+		rpm := a.rpm[k]
+		revs, _, _ := integral(l.T, rpm)
+		mr := MotorRun{Position: r.Position, Revolutions: revs / 60, Bins: []RPMBin{}}
+		w := trapezoidWeights(l.T, rpm)
 		var on, onRPM, onRPM2 float64
-		for i, v := range r.RPM {
+		for i, v := range rpm { // a blank has weight 0 and is not above idle
 			if v > a.idleRPM {
 				on += w[i]
 				onRPM += w[i] * v
@@ -50,7 +63,7 @@ func (a *analysis) rotors() {
 				mr.ThrustMeanN = ptr(*m.ThrustK * onRPM2 / on)
 			}
 		}
-		bins, ok := spectrum(l.T, r.RPM, p.RPMBinWidth, m.ThrustK)
+		bins, ok := spectrum(l.T, rpm, p.RPMBinWidth, m.ThrustK)
 		if !ok {
 			a.note(fmt.Sprintf("rpm_%s needs more than %d bins of %g rpm: no load spectrum", r.Position, maxBins, p.RPMBinWidth))
 		}
@@ -61,7 +74,8 @@ func (a *analysis) rotors() {
 
 // thrustConstant: aloft, mean total thrust equals the weight (a flight that
 // starts and ends at rest has no net vertical impulse), and T = k rpm^2, so
-// k = m g / (N mean(rpm^2)) with the mean over rotors and airborne time.
+// k = m g / (N mean(rpm^2)) with the mean over rotors and airborne time
+// (each rotor's over its readings; rotors without one aloft left out).
 func (a *analysis) thrustConstant() {
 	l, m, p := a.l, a.m, a.p
 	switch {
@@ -73,24 +87,32 @@ func (a *analysis) thrustConstant() {
 		return
 	}
 	var sum float64
+	n := 0
 	sq := make([]float64, l.Rows)
-	for _, r := range l.RPM {
-		for i, v := range r.RPM {
+	for _, r := range a.rpm {
+		for i, v := range r {
 			sq[i] = v * v
 		}
-		sum += meanOver(l.T, sq, a.lo, a.hi)
+		if v := meanOver(l.T, sq, a.lo, a.hi); v == v {
+			sum += v
+			n++
+		}
 	}
 	if !(sum > 0) {
 		return
 	}
-	m.ThrustK = ptr(p.MassKg * G0 / sum)
+	m.ThrustK = ptr(p.MassKg * G0 / (sum * float64(len(l.RPM)) / float64(n)))
 }
 
-// trapezoidWeights are the per-sample weights of the trapezoidal rule, so that
-// sum w_i y_i == Trapezoid(t, y).
-func trapezoidWeights(t []float64) []float64 {
+// trapezoidWeights are the per-sample weights of the trapezoidal rule over
+// the intervals whose both ends have a reading in y, so that
+// sum w_i y_i (blanks skipped) == integral(t, y).
+func trapezoidWeights(t, y []float64) []float64 {
 	w := make([]float64, len(t))
 	for i := 1; i < len(t); i++ {
+		if y[i] != y[i] || y[i-1] != y[i-1] {
+			continue
+		}
 		d := (t[i] - t[i-1]) / 2
 		w[i-1] += d
 		w[i] += d
@@ -109,7 +131,9 @@ func trapezoidWeights(t []float64) []float64 {
 func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 	top := 0.0
 	for _, v := range rpm {
-		top = max(top, v)
+		if v > top {
+			top = v
+		}
 	}
 	if top/width >= maxBins {
 		return []RPMBin{}, false
@@ -143,6 +167,9 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 	}
 	for i := 1; i < len(rpm); i++ {
 		a, b := rpm[i-1], rpm[i]
+		if a != a || b != b {
+			continue // no reading at an end: the interval is left out
+		}
 		if a > b {
 			a, b = b, a
 		}

@@ -58,12 +58,18 @@ type RotorSeries struct {
 }
 
 // Log is a parsed flight log. Every non-nil series has Rows samples; optional
-// series whose column is absent are nil.
+// series whose column is absent (or blank in every row) are nil. An optional
+// series holds NaN where its cell was blank: no reading at that sample (a
+// value in the log itself is never NaN). T, PackV and PackA never hold NaN.
 type Log struct {
 	Meta    Meta
-	Columns []string // recognised columns, in header order
+	Columns []string // recognised columns with at least one reading, in header order
 	Unknown []string // ignored columns, in header order, each once
 	Rows    int
+	// Blank counts the blank cells of each optional column that has any,
+	// by service column name; a column blank in every row counts Rows and
+	// is treated as absent.
+	Blank map[string]int
 
 	T, PackV, PackA  []float64
 	RPM              []RotorSeries // in header order
@@ -119,6 +125,8 @@ type column struct {
 	dst    *[]float64 // nil: ignored
 	lo, hi float64    // accepted range, inclusive
 	loOpen bool       // lo itself is refused
+	opt    bool       // optional: a blank cell is no reading (NaN), not a refusal
+	blank  int        // blank cells seen
 }
 
 type parser struct {
@@ -131,6 +139,8 @@ type parser struct {
 	cols   []column
 	header int // line of the header, 0 before it
 	tcol   int
+	lat    int // index of the lat column, -1 if none (lon then also none)
+	lon    int
 	prevT  float64
 	seen   map[string]bool
 	hint   int // input length when the reader tells it, to size the series once
@@ -180,6 +190,7 @@ func Parse(r io.Reader, lim Limits) (*Log, error) {
 	if p.log.Rows == 0 {
 		return nil, p.refuse(p.line, "", "the log has no data rows")
 	}
+	p.finish()
 	return p.log, nil
 }
 
@@ -307,8 +318,23 @@ func (p *parser) parseHeader(b []byte) error {
 	if col, why := fleet.MissingLogColumn(p.seen); col != "" {
 		return p.refuse(p.line, col, why)
 	}
-	p.tcol = l.bind(p.cols)
+	p.bindAll()
 	return nil
+}
+
+// bindAll binds the columns to the log's series and notes where time, lat
+// and lon are.
+func (p *parser) bindAll() {
+	p.tcol = p.log.bind(p.cols)
+	p.lat, p.lon = -1, -1
+	for i, c := range p.cols {
+		switch c.target {
+		case "lat":
+			p.lat = i
+		case "lon":
+			p.lon = i
+		}
+	}
 }
 
 // bind points every column with a target at that target's series, with the
@@ -362,6 +388,7 @@ func (l *Log) bind(cols []column) int {
 			n, _ := fleet.CellColumn(t)
 			c.dst, c.lo = &l.Cells[n-1], 0
 		}
+		c.opt = !slices.Contains(fleet.RequiredLogColumns, c.target)
 		*c.dst = []float64{}
 	}
 	return tcol
@@ -401,6 +428,9 @@ func (p *parser) row(b []byte) error {
 		}
 		*c.dst = append(*c.dst, v)
 	}
+	if k := p.halfFix(); k >= 0 {
+		return p.refuse(p.line, p.cols[k].name, halfFixText)
+	}
 	t := l.T[len(l.T)-1]
 	if l.Rows > 0 && !(t > p.prevT) {
 		return p.refuse(p.line, "t_s", fmt.Sprintf("time %g s is not after the previous row's %g s", t, p.prevT))
@@ -427,7 +457,11 @@ func (p *parser) reserve(rowLen int) {
 func (p *parser) value(c *column, f []byte) (float64, error) {
 	f = trimSpace(f)
 	if len(f) == 0 {
-		return 0, p.refuse(p.line, c.name, "empty value in column "+c.name+" (leave out a column with no data rather than leaving it blank)")
+		if c.opt {
+			c.blank++
+			return math.NaN(), nil
+		}
+		return 0, p.refuse(p.line, c.name, "empty value in required column "+c.name+" (only optional columns may be left blank)")
 	}
 	v, ok := parseDecimal(f)
 	if ok {

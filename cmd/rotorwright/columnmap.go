@@ -7,8 +7,11 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
+	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -137,6 +140,17 @@ func describeReading(rd *ingest.Reading, rows int, out io.Writer) {
 	if len(l.Unknown) > 0 {
 		fmt.Fprintf(out, "ignored columns: %s\n", strings.Join(l.Unknown, ", "))
 	}
+	if len(l.Blank) > 0 {
+		var bs []string
+		for _, c := range slices.Sorted(maps.Keys(l.Blank)) {
+			note := ""
+			if l.Blank[c] == l.Rows {
+				note = ", every row: taken as absent"
+			}
+			bs = append(bs, fmt.Sprintf("%s %d%s", c, l.Blank[c], note))
+		}
+		fmt.Fprintf(out, "blank cells (no reading): %s\n", strings.Join(bs, "; "))
+	}
 	if l.Meta.Start != nil {
 		fmt.Fprintf(out, "start: %s\n", l.Meta.Start.UTC().Format("2006-01-02T15:04:05.999999999Z07:00"))
 	}
@@ -155,7 +169,9 @@ func describeReading(rd *ingest.Reading, rows int, out io.Writer) {
 	for i := range n {
 		vals := make([]string, len(l.Columns))
 		for j, c := range l.Columns {
-			vals[j] = strconv.FormatFloat(l.Series(c)[i], 'g', 10, 64)
+			if v := l.Series(c)[i]; !math.IsNaN(v) { // a blank cell stays blank
+				vals[j] = strconv.FormatFloat(v, 'g', 10, 64)
+			}
 		}
 		fmt.Fprintln(tw, strings.Join(vals, "\t")+"\t")
 	}

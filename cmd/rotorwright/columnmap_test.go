@@ -74,6 +74,13 @@ func TestColumnMapCheckAndImport(t *testing.T) {
 		t.Fatalf("check native: exit %d\n%s", code, out)
 	}
 
+	// Blank optional cells are counted and printed blank.
+	out, _, code = runCLI(t, "column-map", "check", "../../testdata/logs/blank_cells.csv", "--rows", "2", "--database-url", url)
+	if code != 0 || !strings.Contains(out, "blank cells (no reading): baro_pa 2; cell_1_v 10; cell_2_v 10; cell_3_v 10; lat 6; lon 6; rpm_m2 1\n") ||
+		strings.Contains(out, "NaN") {
+		t.Fatalf("check of a log with blank cells: exit %d\n%s", code, out)
+	}
+
 	// A refusal names line and source column; a draft map from a file is
 	// checked as creation would check it.
 	lines := strings.Split(string(files["epoch-us.csv"]), "\n")

@@ -63,7 +63,8 @@ func WriteLayout(spec FlightSpec, l LogLayout, w io.Writer) (Truth, error) {
 // Transcribe rewrites a native log as the simulator writes it in layout l,
 // field by field on the decimal text (a change of unit moves the decimal
 // point; Fahrenheit and negation are exact decimal arithmetic), so the
-// layout carries exactly the native log's information.
+// layout carries exactly the native log's information. A blank cell stays
+// blank (a quoted layout writes it "").
 func (l LogLayout) Transcribe(native []byte, w io.Writer) error {
 	bw := bufio.NewWriterSize(w, 64<<10)
 	eol := "\n"
@@ -118,6 +119,10 @@ func (l LogLayout) Transcribe(native []byte, w io.Writer) error {
 			for j, i := range keep {
 				v := in[i]
 				var err error
+				if v == "" && convs[j] != nil {
+					fields = append(fields, "") // a blank cell stays blank
+					continue
+				}
 				if convs[j] == nil {
 					v, err = l.time(v, start)
 				} else {
