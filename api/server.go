@@ -111,15 +111,19 @@ type Server struct {
 	metrics *metrics
 	limit   *limiters
 	engine  *gin.Engine
+	board   *web.Board
+	// sessionTTL is how long a board sign-in lasts.
+	sessionTTL time.Duration
 }
 
 // Route is one API route and the least role that may call it; Public routes
-// need no token.
+// need no token; Board routes are pages that need a board session (any role).
 type Route struct {
 	Method  string
 	Path    string // gin syntax: /v1/airframes/:id
 	Role    fleet.Role
 	Public  bool
+	Board   bool
 	handler func(*Server, *gin.Context)
 }
 
@@ -129,7 +133,21 @@ var Routes = []Route{
 	{Method: "GET", Path: "/readyz", Public: true, handler: (*Server).readyz},
 	{Method: "GET", Path: "/openapi.yaml", Public: true, handler: (*Server).openapiDoc},
 	{Method: "GET", Path: "/metrics", Public: true, handler: (*Server).metricsHandler},
-	{Method: "GET", Path: "/", Public: true, handler: (*Server).board},
+
+	{Method: "GET", Path: "/sign-in", Public: true, handler: (*Server).signInPage},
+	{Method: "POST", Path: "/sign-in", Public: true, handler: (*Server).signIn},
+	{Method: "POST", Path: "/sign-out", Public: true, handler: (*Server).signOut},
+	{Method: "GET", Path: "/assets/:file", Public: true, handler: (*Server).asset},
+	{Method: "GET", Path: "/", Board: true, handler: (*Server).boardFleet},
+	{Method: "GET", Path: "/airframes/:code", Board: true, handler: (*Server).boardAirframe},
+	{Method: "GET", Path: "/parts/:id", Board: true, handler: (*Server).boardPart},
+	{Method: "GET", Path: "/flights/:id", Board: true, handler: (*Server).boardFlight},
+	{Method: "GET", Path: "/jobs/:code", Board: true, handler: (*Server).boardJob},
+	{Method: "GET", Path: "/jobs/:code/manifest.csv", Board: true, handler: (*Server).boardJobCSV},
+	{Method: "GET", Path: "/plan", Board: true, handler: (*Server).boardPlan},
+	{Method: "GET", Path: "/plan.csv", Board: true, handler: (*Server).boardPlanCSV},
+	{Method: "GET", Path: "/queue", Board: true, handler: (*Server).boardQueue},
+	{Method: "GET", Path: "/check", Board: true, handler: (*Server).boardCheck},
 
 	{Method: "GET", Path: "/v1/layouts", Role: fleet.RoleViewer, handler: (*Server).listLayouts},
 	{Method: "POST", Path: "/v1/layouts", Role: fleet.RoleTechnician, handler: (*Server).createLayout},
@@ -212,7 +230,12 @@ var Routes = []Route{
 func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme) *Server {
 	limits = limits.withDefaults()
 	hs := health.New(db)
-	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics(), limit: newLimiters(limits)}
+	board, err := web.New()
+	if err != nil {
+		panic("board templates: " + err.Error()) // embedded: a build defect, caught by the tests
+	}
+	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics(), limit: newLimiters(limits),
+		board: board, sessionTTL: DefaultSessionTTL}
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
@@ -233,10 +256,13 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	for _, r := range Routes {
 		h := r.handler
 		chain := []gin.HandlerFunc{}
-		if !r.Public {
+		switch {
+		case r.Board:
+			chain = append(chain, s.boardSession())
+		case !r.Public:
 			chain = append(chain, s.authenticate(r.Role))
 		}
-		if r.Method == http.MethodPost && !r.Public {
+		if r.Method == http.MethodPost && !r.Public && !r.Board {
 			limit := limits.JSONBytes
 			if r.Path == "/v1/flights" {
 				limit = limits.LogBytes + limits.JSONBytes
@@ -371,14 +397,6 @@ func (s *Server) readyz(c *gin.Context) {
 		return
 	}
 	c.JSON(http.StatusOK, gin.H{"status": "ready"})
-}
-
-// board serves the read-only board page; its data comes from the API with
-// the viewer's own token, so the page itself holds nothing.
-func (s *Server) board(c *gin.Context) {
-	c.Header("Content-Security-Policy", "default-src 'self'; script-src 'unsafe-inline' 'self'; style-src 'unsafe-inline'")
-	c.Header("X-Content-Type-Options", "nosniff")
-	c.Data(http.StatusOK, "text/html; charset=utf-8", web.Board)
 }
 
 func (s *Server) openapiDoc(c *gin.Context) {

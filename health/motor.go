@@ -23,6 +23,17 @@ type MotorView struct {
 	Since                  *time.Time      `json:"since"`           // counting from (first fit)
 	Model                  BearingSettings `json:"model"`
 	Series                 []SeriesPoint   `json:"series"` // cumulative consumed fraction per flight
+	// Spectrum is the motor's load spectrum over every logged run while
+	// fitted: turning time and revolutions per rpm bin.
+	Spectrum []SpectrumBin `json:"spectrum"`
+}
+
+// SpectrumBin is one rpm bin [RPMLo, RPMHi) of a load spectrum.
+type SpectrumBin struct {
+	RPMLo       float64 `json:"rpm_lo"`
+	RPMHi       float64 `json:"rpm_hi"`
+	Seconds     float64 `json:"seconds"`
+	Revolutions float64 `json:"revolutions"`
 }
 
 // BearingSettings are the bearing model settings used.
@@ -86,10 +97,19 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 	var flights []wear.MotorFlight
 	var rpms, thrusts []float64
 	skipped := 0
+	spectrum := map[[2]float64]*SpectrumBin{}
 	for _, r := range runs {
 		var bins []rpmBin
 		if err := json.Unmarshal(r.Bins, &bins); err != nil {
 			return err
+		}
+		for _, b := range bins {
+			k := [2]float64{b.RPMLo, b.RPMHi}
+			if spectrum[k] == nil {
+				spectrum[k] = &SpectrumBin{RPMLo: b.RPMLo, RPMHi: b.RPMHi}
+			}
+			spectrum[k].Seconds += b.Seconds
+			spectrum[k].Revolutions += b.Revolutions
 		}
 		mf := wear.MotorFlight{At: r.TakeoffAt}
 		ok := true
@@ -129,7 +149,7 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 		if !ok {
 			v.Status = "unknown"
 			v.Notes = append(v.Notes, "no logged flights with rotor speed and thrust yet: bearing wear cannot be estimated")
-			v.Motor = &MotorView{Mode: m.Mode(), Model: set, Series: []SeriesPoint{}}
+			v.Motor = &MotorView{Mode: m.Mode(), Model: set, Series: []SeriesPoint{}, Spectrum: spectrumOf(spectrum)}
 			return nil
 		}
 		m.Rated = wear.RatedInterval{Hours: s.Settings.RatedBearingHours, RPM: refRPM, ThrustN: refN}
@@ -142,7 +162,7 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 	}
 	mv := &MotorView{Mode: st.Mode, ConsumedFraction: st.ConsumedFraction, RunHours: st.RunHours, Flights: len(flights),
 		UtilisationHoursPerDay: st.UtilisationHoursPerDay, ForecastDate: st.ForecastDate, Model: set,
-		Series: make([]SeriesPoint, len(st.Series))}
+		Series: make([]SeriesPoint, len(st.Series)), Spectrum: spectrumOf(spectrum)}
 	if !since.IsZero() {
 		mv.Since = &since
 	}
@@ -165,6 +185,16 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 		v.Status = "serviceable"
 	}
 	return nil
+}
+
+// spectrumOf lists the summed bins in rpm order.
+func spectrumOf(bins map[[2]float64]*SpectrumBin) []SpectrumBin {
+	out := make([]SpectrumBin, 0, len(bins))
+	for _, b := range bins {
+		out = append(out, *b)
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].RPMLo < out[j].RPMLo })
+	return out
 }
 
 func median(x []float64) float64 {

@@ -46,8 +46,10 @@ type CapacityPoint struct {
 // and the crossing of each service rule's limit on this pack.
 type ForecastView struct {
 	*wear.TrendForecast
-	CyclesPerDay float64    `json:"cycles_per_day"`
-	Date         *time.Time `json:"date"`
+	// Curve samples the chosen model and its interval for charts.
+	Curve        []CurvePoint `json:"curve"`
+	CyclesPerDay float64      `json:"cycles_per_day"`
+	Date         *time.Time   `json:"date"`
 	// ForecastReason says why Date is null (fleet.ForecastBeyondHorizon or
 	// fleet.ForecastNoUse); an interval end past the horizon is null too.
 	ForecastReason *string       `json:"forecast_reason"`
@@ -289,7 +291,7 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 // newForecastView dates a forecast's sustained crossing and interval at the
 // recent usage rate.
 func newForecastView(fc *wear.TrendForecast, now time.Time, cycles, perDay float64) *ForecastView {
-	v := &ForecastView{TrendForecast: fc, CyclesPerDay: perDay, Limits: []LimitView{}}
+	v := &ForecastView{TrendForecast: fc, Curve: forecastCurve(fc), CyclesPerDay: perDay, Limits: []LimitView{}}
 	v.Date, v.ForecastReason = cycleDate(now, cycles, fc.FittedSustained, perDay)
 	from, _ := cycleDate(now, cycles, fc.IntervalFrom, perDay)
 	to, _ := cycleDate(now, cycles, fc.IntervalTo, perDay)

@@ -25,6 +25,7 @@ type TrendsView struct {
 type TrendView struct {
 	N              int     `json:"n"`
 	Slope          float64 `json:"slope_per_flight"`
+	Intercept      float64 `json:"intercept"` // the line's value at the window's first flight
 	BaselineMedian float64 `json:"baseline_median"`
 	RisePct        float64 `json:"rise_pct"`
 	Flag           bool    `json:"flag"`
@@ -83,5 +84,5 @@ func (s *Service) trend(values []float64) *TrendView {
 	if err != nil {
 		return nil
 	}
-	return &TrendView{N: r.N, Slope: r.Slope, BaselineMedian: r.BaselineMedian, RisePct: r.RisePct, Flag: r.Flag}
+	return &TrendView{N: r.N, Slope: r.Slope, Intercept: r.Intercept, BaselineMedian: r.BaselineMedian, RisePct: r.RisePct, Flag: r.Flag}
 }

@@ -178,14 +178,41 @@ func assessPacks(f *readinessFacts, block, warn note) {
 
 // factsNow reads the facts now: the register as it stands and the stored
 // due list.
+// factsOf is the airframe's part of the facts as the store loaded them now.
+func factsOf(rf *store.ReadinessFacts, packIDs []string) *readinessFacts {
+	return &readinessFacts{airframe: rf.Airframe, layout: rf.Layout, retired: rf.Airframe.RetiredAt != nil,
+		hold: rf.Airframe.HoldReason, rotors: rf.Rotors, empty: rf.Empty, events: rf.Events, due: rf.Due,
+		packIDs: packIDs, packs: map[string]*packFacts{}}
+}
+
+// AirframeReadiness is one airframe's readiness with the facts behind it.
+type AirframeReadiness struct {
+	Facts     *store.ReadinessFacts
+	Readiness *fleet.Readiness
+}
+
+// FleetReadiness answers Readiness (without packs) for every airframe, from
+// the same facts loaded fleet-wide in a few queries and judged by the same
+// assess, in tail-code order.
+func (p *Programme) FleetReadiness(ctx context.Context) ([]AirframeReadiness, error) {
+	now := p.Now().UTC()
+	all, err := p.DB.FleetReadinessFacts(ctx, now)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]AirframeReadiness, len(all))
+	for i, rf := range all {
+		out[i] = AirframeReadiness{Facts: rf, Readiness: assess(factsOf(rf, nil), now, now)}
+	}
+	return out, nil
+}
+
 func (p *Programme) factsNow(ctx context.Context, airframeID string, packIDs []string, now time.Time) (*readinessFacts, error) {
 	rf, err := p.DB.ReadinessFacts(ctx, airframeID, now)
 	if err != nil {
 		return nil, err
 	}
-	f := &readinessFacts{airframe: rf.Airframe, layout: rf.Layout, retired: rf.Airframe.RetiredAt != nil,
-		hold: rf.Airframe.HoldReason, rotors: rf.Rotors, empty: rf.Empty, events: rf.Events, due: rf.Due,
-		packIDs: packIDs, packs: map[string]*packFacts{}}
+	f := factsOf(rf, packIDs)
 	for _, id := range packIDs {
 		pk, err := p.DB.Part(ctx, id)
 		if fleet.ErrorCode(err) == fleet.ENOTFOUND {

@@ -293,29 +293,16 @@ func (db *DB) ReadinessFacts(ctx context.Context, airframeID string, at time.Tim
 		return nil, err
 	}
 	rf := &ReadinessFacts{Airframe: a, Layout: l}
-	rows, err := db.pool.Query(ctx, `
-		SELECT f.kind, p.serial, f.position, coalesce(p.specs->>'rotation', '')
-		FROM fits f JOIN parts p ON p.id = f.part_id
-		WHERE f.airframe_id = $1 AND f.during @> $2::timestamptz AND f.kind IN ('motor', 'propeller')
-		ORDER BY f.kind, f.position`, airframeID, at)
+	rows, err := db.pool.Query(ctx, rotorsAtSQL+` AND f.airframe_id = $2 ORDER BY f.kind, f.position`, at, airframeID)
 	if err != nil {
 		return nil, translate(err)
 	}
-	rf.Rotors, err = collect(rows, func(r pgx.Row) (FittedRotor, error) {
-		var fr FittedRotor
-		return fr, r.Scan(&fr.Kind, &fr.Serial, &fr.Position, &fr.Rotation)
-	})
+	err = eachRotor(rows, func(_ string, fr FittedRotor) { rf.Rotors = append(rf.Rotors, fr) })
 	if err != nil {
 		return nil, err
 	}
-	parts := make([]fleet.FittedPart, len(rf.Rotors))
-	for i, r := range rf.Rotors {
-		parts[i] = fleet.FittedPart{Kind: r.Kind, Position: r.Position}
-	}
-	rf.Empty = EmptyPlaces(l, parts)
-	rows, err = db.pool.Query(ctx, `
-		SELECT `+eventCols+` FROM events
-		WHERE airframe_id = $1 AND resolved_at IS NULL AND kind IN ('crash', 'hard_landing') ORDER BY at`, airframeID)
+	rf.Empty = emptyRotorPlaces(l, rf.Rotors)
+	rows, err = db.pool.Query(ctx, groundingEventsSQL+` AND airframe_id = $1 ORDER BY at`, airframeID)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -324,4 +311,38 @@ func (db *DB) ReadinessFacts(ctx context.Context, airframeID string, at time.Tim
 	}
 	rf.Due, err = db.DueItems(ctx, DueFilter{AirframeID: airframeID})
 	return rf, err
+}
+
+// rotorsAtSQL lists the motors and propellers fitted at $1 with their
+// rotation; callers add the airframe condition and the order.
+const rotorsAtSQL = `
+		SELECT f.airframe_id, f.kind, p.serial, f.position, coalesce(p.specs->>'rotation', '')
+		FROM fits f JOIN parts p ON p.id = f.part_id
+		WHERE f.during @> $1::timestamptz AND f.kind IN ('motor', 'propeller')`
+
+// groundingEventsSQL lists the open events that ground an airframe until
+// resolved; callers add the airframe condition and the order.
+const groundingEventsSQL = `
+		SELECT ` + eventCols + ` FROM events
+		WHERE resolved_at IS NULL AND kind IN ('crash', 'hard_landing')`
+
+func eachRotor(rows pgx.Rows, fn func(airframeID string, fr FittedRotor)) error {
+	defer rows.Close()
+	for rows.Next() {
+		var id string
+		var fr FittedRotor
+		if err := rows.Scan(&id, &fr.Kind, &fr.Serial, &fr.Position, &fr.Rotation); err != nil {
+			return translate(err)
+		}
+		fn(id, fr)
+	}
+	return translate(rows.Err())
+}
+
+func emptyRotorPlaces(l *fleet.Layout, rotors []FittedRotor) []EmptyPlace {
+	parts := make([]fleet.FittedPart, len(rotors))
+	for i, r := range rotors {
+		parts[i] = fleet.FittedPart{Kind: r.Kind, Position: r.Position}
+	}
+	return EmptyPlaces(l, parts)
 }

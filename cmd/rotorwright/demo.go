@@ -44,7 +44,7 @@ func runDemo(ctx context.Context, app *App, months int) (string, error) {
 func printDemoBanner(w io.Writer, addr, token string, took time.Duration) {
 	fmt.Fprintf(w, `
 Rotorwright demo is up (ready in %s).
-  Board:    http://%s/  (paste the token)
+  Board:    http://%s/  (sign in with the token)
   API:      http://%s/v1/airframes
   OpenAPI:  http://%s/openapi.yaml
   Admin token (shown once): %s
