@@ -8,8 +8,8 @@ package web
 import (
 	"bytes"
 	"crypto/sha256"
-	"encoding/hex"
 	"embed"
+	"encoding/hex"
 	"fmt"
 	"html/template"
 	"io"
