@@ -38,7 +38,7 @@ func TestBoard(t *testing.T) {
 				if !strings.HasPrefix(at, base+p.path) {
 					t.Errorf("%s ended at %s", p.path, at)
 				}
-				if w == 1400 || p.name == "check" {
+				if w == 1400 || strings.HasPrefix(p.name, "check") {
 					b.screenshot(t, p.name+"-"+strconv.FormatInt(w, 10))
 				}
 			}

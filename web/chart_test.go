@@ -1,0 +1,88 @@
+package web
+
+import (
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/rotorwright/rotorwright/health"
+	"github.com/rotorwright/rotorwright/wear"
+)
+
+// A pack chart as the page inlines it: no style attribute (the policy
+// allows no inline style), one classed mark per capacity estimate, the
+// end-of-life line and its label, an accessible name.
+func TestPackCapacityChartMarks(t *testing.T) {
+	pv := &health.PackView{RatedMah: 10000, Cycles: 120, Thresholds: wear.DefaultPackThresholds()}
+	for i := 0; i < 9; i++ {
+		src := []string{"flight_rest_voltages", "charge_record", "capacity_test"}[i%3]
+		pv.Capacity = append(pv.Capacity, health.CapacityPoint{Cycle: float64(15 * i), CapacityMah: 10000 - 12*float64(15*i), Source: src})
+	}
+	var pts []wear.FadePoint
+	for _, c := range pv.Capacity {
+		pts = append(pts, wear.FadePoint{Cycle: c.Cycle, Capacity: c.CapacityMah + float64(int(c.Cycle)%7)})
+	}
+	fit, err := wear.FitFade(pts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cross := 170.0
+	pv.Fade = &health.FadeView{Model: fit.Model}
+	for x := 0.0; x <= 200; x += 10 {
+		lo, hi := fit.PredictionInterval(x, 0.95)
+		pv.Fade.Curve = append(pv.Fade.Curve, health.FadeCurvePoint{Cycle: x, CapacityMah: fit.Predict(x), LoMah: lo, HiMah: hi})
+	}
+	date := time.Date(2027, 3, 1, 0, 0, 0, 0, time.UTC)
+	pv.Forecast = &health.ForecastView{ThresholdMah: 8000, FittedSustained: &cross, Date: &date}
+	c, err := PackCapacityChart(pv)
+	if err != nil {
+		t.Fatal(err)
+	}
+	svg := string(c.SVG)
+	if strings.Contains(svg, " style=") || strings.Contains(svg, "<?xml") {
+		t.Error("inline SVG keeps style attributes or its XML prolog")
+	}
+	if n := strings.Count(svg, `class="pt `); n != len(pv.Capacity) {
+		t.Errorf("%d point marks, want %d", n, len(pv.Capacity))
+	}
+	for _, class := range []string{"s-eol", "s-fit", "s-band", "s-cross"} {
+		if strings.Count(svg, `class="`+class+`"`) != 1 {
+			t.Errorf("want one %s mark", class)
+		}
+	}
+	for _, text := range []string{"end of life 8000 mAh", "cycle 170 · 2027-03-01", "equivalent full cycles", "capacity (mAh)"} {
+		if !strings.Contains(svg, text) {
+			t.Errorf("chart lacks the text %q", text)
+		}
+	}
+	if !regexp.MustCompile(`<svg class="chart" role="img" aria-labelledby="capacity-t"`).MatchString(svg) ||
+		!strings.Contains(svg, `<title id="capacity-t">`) {
+		t.Error("chart has no accessible name")
+	}
+	if len(c.Legend) < 5 {
+		t.Errorf("legend %v", c.Legend)
+	}
+}
+
+// The top view puts every position on the drawing with its part serials.
+func TestTopViewLabels(t *testing.T) {
+	pos := []PositionView{
+		{Label: "m1", Rotation: "ccw", ArmDeg: 45, Motor: &Gauge{Serial: "MOT-1", Fraction: 0.4, Text: "bearing 40 %", Level: "go"},
+			Prop: &Gauge{Serial: "PR-1", Fraction: 1, Text: "replace", Level: "stop"}},
+		{Label: "m2", Rotation: "cw", ArmDeg: 135},
+	}
+	c, err := TopView("tv", "a quad from above", pos)
+	if err != nil {
+		t.Fatal(err)
+	}
+	svg := string(c.SVG)
+	for _, want := range []string{">m1<", ">m2<", ">MOT-1<", ">PR-1<", ">no motor<", ">no prop<", ">FWD<", ">ccw<", ">cw<"} {
+		if !strings.Contains(svg, want) {
+			t.Errorf("top view lacks %s", want)
+		}
+	}
+	if strings.Contains(svg, " style=") {
+		t.Error("top view keeps style attributes")
+	}
+}
