@@ -1,6 +1,7 @@
 package web
 
 import (
+	"fmt"
 	"regexp"
 	"strings"
 	"testing"
@@ -14,27 +15,26 @@ import (
 // allows no inline style), one classed mark per capacity estimate, the
 // end-of-life line and its label, an accessible name.
 func TestPackCapacityChartMarks(t *testing.T) {
-	pv := &health.PackView{RatedMah: 10000, Cycles: 120, Thresholds: wear.DefaultPackThresholds()}
-	for i := 0; i < 9; i++ {
-		src := []string{"flight_rest_voltages", "charge_record", "capacity_test"}[i%3]
-		pv.Capacity = append(pv.Capacity, health.CapacityPoint{Cycle: float64(15 * i), CapacityMah: 10000 - 12*float64(15*i), Source: src})
+	pv := &health.PackView{RatedMah: 10000, Cycles: 190, Thresholds: wear.DefaultPackThresholds()}
+	// A straight fade of 12 mAh a cycle, with a little noise, to 8000 mAh.
+	var pts []wear.TrendPoint
+	for i := 0; i < 20; i++ {
+		x := float64(10 * i)
+		pv.Capacity = append(pv.Capacity, health.CapacityPoint{Cycle: x, CapacityMah: 10000 - 12*x + float64(i%3*5),
+			Source: []string{"flight_rest_voltages", "charge_record", "capacity_test"}[i%3]})
+		pts = append(pts, wear.TrendPoint{Cycle: x, Value: pv.Capacity[i].CapacityMah})
 	}
-	var pts []wear.FadePoint
-	for _, c := range pv.Capacity {
-		pts = append(pts, wear.FadePoint{Cycle: c.Cycle, Capacity: c.CapacityMah + float64(int(c.Cycle)%7)})
-	}
-	fit, err := wear.FitFade(pts)
-	if err != nil {
-		t.Fatal(err)
-	}
-	cross := 170.0
-	pv.Fade = &health.FadeView{Model: fit.Model}
-	for x := 0.0; x <= 200; x += 10 {
-		lo, hi := fit.PredictionInterval(x, 0.95)
-		pv.Fade.Curve = append(pv.Fade.Curve, health.FadeCurvePoint{Cycle: x, CapacityMah: fit.Predict(x), LoMah: lo, HiMah: hi})
+	fc, err := wear.Forecast(pts, wear.ForecastSettings{Threshold: 8000})
+	if err != nil || fc.FittedSustained == nil {
+		t.Fatalf("forecast %+v: %v", fc, err)
 	}
 	date := time.Date(2027, 3, 1, 0, 0, 0, 0, time.UTC)
-	pv.Forecast = &health.ForecastView{ThresholdMah: 8000, FittedSustained: &cross, Date: &date}
+	pv.Forecast = &health.ForecastView{TrendForecast: fc, Date: &date}
+	for x := 0.0; x <= 200; x += 10 {
+		lo, hi := fc.Bounds(x)
+		pv.Forecast.Curve = append(pv.Forecast.Curve, health.CurvePoint{Cycle: x, Value: fc.Predict(x), Lo: lo, Hi: hi})
+	}
+	cross := fmt.Sprintf("cycle %.0f · 2027-03-01", *fc.FittedSustained)
 	c, err := PackCapacityChart(pv)
 	if err != nil {
 		t.Fatal(err)
@@ -51,7 +51,7 @@ func TestPackCapacityChartMarks(t *testing.T) {
 			t.Errorf("want one %s mark", class)
 		}
 	}
-	for _, text := range []string{"end of life 8000 mAh", "cycle 170 · 2027-03-01", "equivalent full cycles", "capacity (mAh)"} {
+	for _, text := range []string{"end of life 8000 mAh", cross, "equivalent full cycles", "capacity (mAh)"} {
 		if !strings.Contains(svg, text) {
 			t.Errorf("chart lacks the text %q", text)
 		}
