@@ -22,20 +22,17 @@ const curveSamples = 64
 
 // forecastCurve samples the chosen model and its interval from the first
 // measured cycle to a little past the later of the last measurement and the
-// sustained crossing (or the end of its interval), so a chart shows where
-// the curve meets the threshold. Empty when no model was fitted.
+// sustained crossing, so a chart shows where the curve meets the threshold.
+// Empty when no model was fitted.
 func forecastCurve(fc *wear.TrendForecast) []CurvePoint {
 	if fc == nil || fc.Model == "" {
 		return []CurvePoint{}
 	}
 	from, to := fc.FirstCycle, fc.LastCycle
-	for _, c := range []*float64{fc.FittedSustained, fc.IntervalTo} {
-		// A crossing far beyond the data would squash the measured part.
-		if c != nil && *c <= 5*math.Max(fc.LastCycle, 1) {
-			to = math.Max(to, *c)
-		}
+	if c := fc.FittedSustained; c != nil {
+		to = math.Max(to, *c)
 	}
-	to = math.Min(fc.Horizon, from+(to-from)*1.1)
+	to = math.Min(fc.Horizon, from+(to-from)*1.08)
 	out := make([]CurvePoint, 0, curveSamples+1)
 	for i := 0; i <= curveSamples; i++ {
 		x := from + (to-from)*float64(i)/curveSamples
