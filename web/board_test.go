@@ -2,10 +2,12 @@ package web_test
 
 import (
 	"context"
+	"regexp"
 	"strconv"
 	"strings"
 	"testing"
 
+	"github.com/chromedp/cdproto/emulation"
 	"github.com/chromedp/chromedp"
 
 	"github.com/rotorwright/rotorwright/store"
@@ -114,6 +116,37 @@ func TestBoard(t *testing.T) {
 		}
 		if n := eval[int](t, b, `document.querySelectorAll("#capacity svg path.s-fit, #capacity svg path.s-band").length`); n != want {
 			t.Errorf("the capacity chart has %d fitted-curve and band marks, want %d", n, want)
+		}
+	})
+
+	t.Run("the planner and a job print on A4", func(t *testing.T) {
+		var jobs struct {
+			Items []struct{ Code string } `json:"items"`
+		}
+		s.get(t, "/v1/jobs?limit=1", &jobs)
+		for _, p := range []string{"/plan", "/jobs/" + jobs.Items[0].Code} {
+			// A4 less the print margins (12 mm each side) is 186 mm, 703 CSS px.
+			b.visit(t, base+p, 703)
+			if _, err := chromedp.Call(b.ctx, emulation.SetEmulatedMedia, emulation.SetEmulatedMediaParams{Media: "print"}); err != nil {
+				t.Fatal(err)
+			}
+			dims := eval[[]float64](t, b, `[document.documentElement.scrollWidth, window.innerWidth]`)
+			nav := eval[string](t, b, `getComputedStyle(document.querySelector("header nav")).display`)
+			caution := eval[string](t, b, `getComputedStyle(document.querySelector("footer.cautions")).display`)
+			if dims[0] > dims[1] || nav != "none" || caution == "none" {
+				t.Errorf("%s printed: width %v, navigation %q, cautions %q; want it to fit, no navigation, the cautions", p, dims, nav, caution)
+			}
+			if _, err := chromedp.Call(b.ctx, emulation.SetEmulatedMedia, emulation.SetEmulatedMediaParams{}); err != nil {
+				t.Fatal(err)
+			}
+			pdf, err := chromedp.Run(b.ctx, chromedp.PrintToPDF(chromedp.PDFPreferCSSPageSize()))
+			if err != nil {
+				t.Fatal(err)
+			}
+			// The stylesheet's @page asks for A4: 595 x 842 points.
+			if !regexp.MustCompile(`/MediaBox \[0 0 59[45]\.\d+ 84[12]\.\d+\]`).Match(pdf) {
+				t.Errorf("%s does not print on A4 pages", p)
+			}
 		}
 	})
 

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"strconv"
 	"time"
 
 	"gonum.org/v1/plot"
@@ -275,6 +276,16 @@ func TrendChart(id, title, yLabel string, series []store.TrendPoint, value func(
 		b.p.Add(scatter(xy, b.series("pt s-point", "● one flight", inkBlue), draw.CircleGlyph{}, 2.5))
 		b.dateAxis(xy[0].X, xy[len(xy)-1].X)
 	}
+	// Figures that vary in the third digit need labels that show it.
+	b.p.Y.Tick.Marker = plot.TickerFunc(func(min, max float64) []plot.Tick {
+		ticks := plot.DefaultTicks{}.Ticks(min, max)
+		for i := range ticks {
+			if ticks[i].Label != "" {
+				ticks[i].Label = strconv.FormatFloat(ticks[i].Value, 'g', 5, 64)
+			}
+		}
+		return ticks
+	})
 	caption := "Too few logged flights for a trend (it needs five)."
 	if tv != nil && len(xy) >= tv.N && tv.N > 1 {
 		// The trend is fitted over the window's flights by their place in it.
