@@ -181,6 +181,7 @@ type RecentFlight struct {
 	ChargeMah       *float64
 	LandingG        *float64
 	OverrideReason  *string
+	ReadyAtTakeoff  *bool // the verdict kept with the flight; nil until judged
 }
 
 // RecentFlights returns an airframe's last n flights, newest first, with
@@ -191,7 +192,7 @@ func (db *DB) RecentFlights(ctx context.Context, airframeID string, n int) ([]Re
 			coalesce((SELECT array_agg(p.serial ORDER BY fp.slot) FROM flight_packs fp JOIN parts p ON p.id = fp.part_id
 			          WHERE fp.flight_id = fl.id), '{}'),
 			coalesce((SELECT array_agg(fp.part_id::text ORDER BY fp.slot) FROM flight_packs fp WHERE fp.flight_id = fl.id), '{}'),
-			m.efficiency_index, m.charge_mah, m.landing_g, fl.override_reason
+			m.efficiency_index, m.charge_mah, m.landing_g, fl.override_reason, (fl.readiness_at_takeoff->>'ready')::boolean
 		FROM flights fl LEFT JOIN jobs j ON j.id = fl.job_id LEFT JOIN flight_metrics m ON m.flight_id = fl.id
 		WHERE fl.airframe_id = $1 ORDER BY fl.takeoff_at DESC LIMIT $2`, airframeID, n)
 	if err != nil {
@@ -200,7 +201,7 @@ func (db *DB) RecentFlights(ctx context.Context, airframeID string, n int) ([]Re
 	return collect(rows, func(r pgx.Row) (RecentFlight, error) {
 		var f RecentFlight
 		return f, r.Scan(&f.ID, &f.TakeoffAt, &f.LandingAt, &f.Pilot, &f.JobCode, &f.Packs, &f.PackIDs,
-			&f.EfficiencyIndex, &f.ChargeMah, &f.LandingG, &f.OverrideReason)
+			&f.EfficiencyIndex, &f.ChargeMah, &f.LandingG, &f.OverrideReason, &f.ReadyAtTakeoff)
 	})
 }
 
