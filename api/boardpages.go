@@ -1,7 +1,6 @@
 package api
 
 import (
-	"encoding/csv"
 	"net/http"
 	"strconv"
 	"time"
@@ -75,9 +74,9 @@ func (s *Server) boardPlanCSV(c *gin.Context) {
 	c.Header("Content-Type", "text/csv; charset=utf-8")
 	c.Header("Content-Disposition", `attachment; filename="plan-`+strconv.Itoa(days)+`d.csv"`)
 	c.Status(http.StatusOK)
-	w := csv.NewWriter(c.Writer)
-	_ = w.Write([]string{"week_start", "forecast_date", "status", "grounding", "airframe", "subject_kind", "subject",
-		"part_number", "rule", "action", "reason"})
+	w := newCSV(c.Writer)
+	_ = w.row(text("week_start"), text("forecast_date"), text("status"), text("grounding"), text("airframe"),
+		text("subject_kind"), text("subject"), text("part_number"), text("rule"), text("action"), text("reason"))
 	for _, it := range items {
 		week, date := "", ""
 		if it.ForecastDate != nil {
@@ -87,10 +86,12 @@ func (s *Server) boardPlanCSV(c *gin.Context) {
 		if it.PartNumber != nil {
 			pn = *it.PartNumber
 		}
-		_ = w.Write([]string{week, date, it.Status, strconv.FormatBool(it.Grounding), it.AirframeCode, it.SubjectKind,
-			it.Subject, pn, it.RuleName, it.Action, it.Reason})
+		_ = w.row(text(week), text(date), text(it.Status), text(strconv.FormatBool(it.Grounding)), text(it.AirframeCode),
+			text(it.SubjectKind), text(it.Subject), text(pn), text(it.RuleName), text(it.Action), text(it.Reason))
 	}
-	w.Flush()
+	if err := w.flush(); err != nil {
+		s.log.Info("plan CSV not fully written", "err", err)
+	}
 }
 
 // boardQueue is the work queue: 7 queries (session, overdue, due soon, rules,
@@ -206,7 +207,7 @@ func (s *Server) boardJob(c *gin.Context) {
 // boardJobCSV is the job's manifest as CSV, the same as the API's.
 func (s *Server) boardJobCSV(c *gin.Context) {
 	if m, ok := s.jobManifestByCode(c); ok {
-		writeManifestCSV(c, m)
+		s.writeManifestCSV(c, m)
 	}
 }
 

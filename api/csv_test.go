@@ -38,6 +38,14 @@ func TestCSVCellsCannotBeFormulas(t *testing.T) {
 	}
 	// An airframe whose model begins like a formula, for the monthly summary.
 	e.create("/v1/airframes", map[string]any{"code": "CSV-2", "layout": "quad-x", "cells_s": 6, "model": evil[1]})
+	// A motor rule named like a formula puts the planted motors on the
+	// planner; the board's CSV routes are read signed in.
+	if r := e.call("POST", "/v1/service-rules", fleet.RoleAdmin, map[string]any{"name": "=1+1 check", "applies_to": "motor",
+		"flights": 1, "action": "inspect"}); r.Status != 201 {
+		t.Fatalf("rule: %d %s", r.Status, r.Body)
+	}
+	cookie := "rw_session=" + sessionCookie(t, e.signIn(e.tokens[fleet.RoleViewer])).Value
+	board := map[string]string{"/jobs/{code}/manifest.csv": "/jobs/CSV-J/manifest.csv", "/plan.csv": "/plan.csv?days=90"}
 	covered := map[string]func() string{
 		"/v1/jobs/{id}/manifest": func() string { return "/v1/jobs/" + job.ID + "/manifest?format=csv" },
 		"/v1/reports/monthly":    func() string { return "/v1/reports/monthly?format=csv&month=" + time.Now().UTC().Format("2006-01") },
@@ -59,12 +67,15 @@ func TestCSVCellsCannotBeFormulas(t *testing.T) {
 			if !csvOut || exempt[path] {
 				continue
 			}
-			url, ok := covered[path]
-			if !ok {
+			var r *resp
+			if u, ok := board[path]; ok {
+				r = e.call("GET", u, "", nil, "Cookie", cookie)
+			} else if url, ok := covered[path]; ok {
+				r = e.call("GET", url(), fleet.RoleViewer, nil)
+			} else {
 				t.Errorf("CSV route %s is not covered by this test", path)
 				continue
 			}
-			r := e.call("GET", url(), fleet.RoleViewer, nil)
 			if r.Status != 200 {
 				t.Fatalf("%s: %d %s", path, r.Status, r.Body)
 			}

@@ -83,12 +83,12 @@ func (s *Server) jobManifest(c *gin.Context) {
 		c.JSON(http.StatusOK, m)
 		return
 	}
-	writeManifestCSV(c, m)
+	s.writeManifestCSV(c, m)
 }
 
 // writeManifestCSV answers with the manifest as CSV: one spreadsheet row per
 // flight and part (packs included). The API and the board share it.
-func writeManifestCSV(c *gin.Context, m *store.Manifest) {
+func (s *Server) writeManifestCSV(c *gin.Context, m *store.Manifest) {
 	c.Header("Content-Type", "text/csv; charset=utf-8")
 	c.Header("Content-Disposition", `attachment; filename="manifest-`+m.Job.Code+`.csv"`)
 	c.Status(http.StatusOK)
