@@ -76,7 +76,9 @@ func QueuePage(due []*fleet.DueItem, rules []*fleet.ServiceRule, events []*fleet
 		if it.AirframeID != nil {
 			qi.AirframeCode = codes[*it.AirframeID]
 		}
-		if s := desc[it.RuleID]; s != "" {
+		if it.RuleID == nil {
+			qi.ToDo = "Comply with the notice and record the work." // an open notice's item
+		} else if s := desc[*it.RuleID]; s != "" {
 			qi.ToDo = s + " " + qi.ToDo
 		}
 		switch it.Status {
