@@ -211,9 +211,9 @@ type DueFilter struct {
 	Before     *time.Time // forecast date before (or overdue)
 }
 
-// DueItems lists due items, most urgent first.
-func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, error) {
-	rows, err := db.pool.Query(ctx, `
+// dueItemsSQL lists due items, most urgent first ($1 status, $2 airframe,
+// $3 forecast before, $4 subject; empty or NULL: any).
+const dueItemsSQL = `
 		SELECT d.rule_id, d.notice_id, coalesce(r.name, n.reference || ' rev ' || n.revision || ': ' || n.title),
 			coalesce(r.action, 'comply'), d.subject_kind, d.subject_id,
 			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
@@ -225,20 +225,30 @@ func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, erro
 		  AND ($3::timestamptz IS NULL OR d.status = 'overdue' OR d.forecast_date < $3)
 		  AND ($4::uuid IS NULL OR d.subject_id = $4)
 		ORDER BY CASE d.status WHEN 'overdue' THEN 0 WHEN 'due_soon' THEN 1 ELSE 2 END,
-			d.forecast_date NULLS LAST, d.fraction DESC`, f.Status, nilIfEmpty(f.AirframeID), f.Before, nilIfEmpty(f.SubjectID))
+			d.forecast_date NULLS LAST, d.fraction DESC`
+
+func dueItemsArgs(f DueFilter) []any {
+	return []any{f.Status, nilIfEmpty(f.AirframeID), f.Before, nilIfEmpty(f.SubjectID)}
+}
+
+func scanDueItem(r pgx.Row) (*fleet.DueItem, error) {
+	var d fleet.DueItem
+	var usage []byte
+	if err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
+		&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
+		&d.ForecastDate, &d.ForecastReason, &d.ComputedAt); err != nil {
+		return nil, err
+	}
+	return &d, json.Unmarshal(usage, &d.Usage)
+}
+
+// DueItems lists due items, most urgent first.
+func (db *DB) DueItems(ctx context.Context, f DueFilter) ([]*fleet.DueItem, error) {
+	rows, err := db.pool.Query(ctx, dueItemsSQL, dueItemsArgs(f)...)
 	if err != nil {
 		return nil, translate(err)
 	}
-	return collect(rows, func(r pgx.Row) (*fleet.DueItem, error) {
-		var d fleet.DueItem
-		var usage []byte
-		if err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
-			&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
-			&d.ForecastDate, &d.ForecastReason, &d.ComputedAt); err != nil {
-			return nil, err
-		}
-		return &d, json.Unmarshal(usage, &d.Usage)
-	})
+	return collect(rows, scanDueItem)
 }
 
 // StockByPartNumber counts the parts in stock per part number.

@@ -154,24 +154,29 @@ type OpenDiscrepancy struct {
 // OpenDiscrepancies lists the discrepancies open at the moment at on the
 // airframe itself and on the parts fitted to it then.
 func (db *DB) OpenDiscrepancies(ctx context.Context, airframeID string, at time.Time) ([]OpenDiscrepancy, error) {
-	rows, err := db.pool.Query(ctx, `
-		SELECT `+prefixed("d.", discrepancyCols)+`, coalesce(p.serial, a.code)
+	rows, err := db.pool.Query(ctx, openDiscrepanciesSQL, airframeID, at)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanOpenDiscrepancy)
+}
+
+// openDiscrepanciesSQL: $1 airframe, $2 moment.
+var openDiscrepanciesSQL = `
+		SELECT ` + prefixed("d.", discrepancyCols) + `, coalesce(p.serial, a.code)
 		FROM discrepancies d
 		LEFT JOIN parts p ON p.id = d.part_id
 		LEFT JOIN airframes a ON a.id = d.airframe_id
 		WHERE d.found_at <= $2 AND (d.cleared_at IS NULL OR d.cleared_at > $2)
 		  AND ((d.part_id IS NULL AND d.airframe_id = $1)
 		       OR d.part_id IN (SELECT part_id FROM fits WHERE airframe_id = $1 AND during @> $2::timestamptz))
-		ORDER BY d.grounding DESC, d.found_at`, airframeID, at)
-	if err != nil {
-		return nil, translate(err)
-	}
-	return collect(rows, func(r pgx.Row) (OpenDiscrepancy, error) {
-		var d fleet.Discrepancy
-		var od OpenDiscrepancy
-		err := r.Scan(&d.ID, &d.WorkRecordID, &d.AirframeID, &d.PartID, &d.FoundAt, &d.Description, &d.Grounding,
-			&d.ClearedAt, &d.ClearedBy, &d.CreatedAt, &od.Subject)
-		od.Discrepancy = &d
-		return od, err
-	})
+		ORDER BY d.grounding DESC, d.found_at`
+
+func scanOpenDiscrepancy(r pgx.Row) (OpenDiscrepancy, error) {
+	var d fleet.Discrepancy
+	var od OpenDiscrepancy
+	err := r.Scan(&d.ID, &d.WorkRecordID, &d.AirframeID, &d.PartID, &d.FoundAt, &d.Description, &d.Grounding,
+		&d.ClearedAt, &d.ClearedBy, &d.CreatedAt, &od.Subject)
+	od.Discrepancy = &d
+	return od, err
 }

@@ -40,6 +40,16 @@ import (
 // server must be PostgreSQL 13 or later (DROP DATABASE ... WITH (FORCE)).
 const EnvURL = "ROTORWRIGHT_TEST_DATABASE_URL"
 
+// EnvCluster set to "service" starts the run's cluster with the settings
+// the service's own embedded cluster runs on (fsync, synchronous commit,
+// full-page writes and PostgreSQL's default buffers) instead of the fast,
+// unsafe test settings: for benchmarks whose figures must be the service's.
+const EnvCluster = "ROTORWRIGHT_TEST_CLUSTER"
+
+// ServiceSettings reports whether this run's cluster has the service's
+// settings (EnvCluster=service).
+func ServiceSettings() bool { return os.Getenv(EnvCluster) == "service" }
+
 // current is the harness Main set up for this test binary.
 var current *harness
 
@@ -114,7 +124,7 @@ func startServer(ctx context.Context) (string, func(), error) {
 		os.RemoveAll(dir)
 		return "", nil, err
 	}
-	c, err := pglocal.Start(ctx, pglocal.Options{Dir: dir, Database: "postgres", Ephemeral: true})
+	c, err := pglocal.Start(ctx, pglocal.Options{Dir: dir, Database: "postgres", Ephemeral: !ServiceSettings()})
 	if err != nil {
 		os.RemoveAll(dir)
 		return "", nil, err
