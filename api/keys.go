@@ -54,11 +54,14 @@ func (s *Server) revokeKey(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
+	heard := s.keys.expect(id)
+	defer s.keys.forget(id)
 	k, err := s.db.RevokeKey(c.Request.Context(), id)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
+	s.keys.revoked(heard)
 	c.JSON(http.StatusOK, k)
 }
 

@@ -112,6 +112,7 @@ type Server struct {
 	limit   *limiters
 	engine  *gin.Engine
 	board   *web.Board
+	keys    *keyCache
 	// sessionTTL is how long a board sign-in lasts.
 	sessionTTL time.Duration
 }
@@ -235,7 +236,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 		panic("board templates: " + err.Error()) // embedded: a build defect, caught by the tests
 	}
 	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics(), limit: newLimiters(limits),
-		board: board, sessionTTL: DefaultSessionTTL}
+		board: board, sessionTTL: DefaultSessionTTL, keys: newKeyCache(db, keyCacheTTL)}
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
@@ -287,6 +288,10 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 
 // Handler returns the HTTP handler.
 func (s *Server) Handler() http.Handler { return s.engine }
+
+// Close stops the listener behind the key cache (started by the first
+// authentication); call it when the server is done.
+func (s *Server) Close() { s.keys.close() }
 
 // allowed lists the methods the route table has for a concrete path.
 func allowed(path string) []string {
@@ -344,8 +349,9 @@ func (s *Server) requestID() gin.HandlerFunc {
 	}
 }
 
-// authenticate checks the bearer token on every call (so a revoked key stops
-// working at once) and the role the route needs, and sets the audit actor.
+// authenticate checks the bearer token on every call and the role the route
+// needs, and sets the audit actor. Keys come from the key cache (a revoked
+// key stops working at once: see keyCache).
 func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 	return func(c *gin.Context) {
 		addr := c.ClientIP()
@@ -361,7 +367,7 @@ func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 			s.fail(c, fleet.Errorf(fleet.EUNAUTHORIZED, "send Authorization: Bearer <token>"))
 			return
 		}
-		k, err := s.db.Authenticate(c.Request.Context(), strings.TrimSpace(token))
+		k, err := s.keys.authenticate(c.Request.Context(), strings.TrimSpace(token))
 		if err != nil {
 			if s.limit.auth != nil && fleet.ErrorCode(err) == fleet.EUNAUTHORIZED {
 				s.limit.auth.failed(addr, s.limit.authWindow)

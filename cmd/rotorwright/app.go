@@ -265,6 +265,7 @@ func (a *App) Run(ctx context.Context) error {
 	limits := a.cfg.Limits
 	limits.MetricsElsewhere = a.cfg.MetricsAddr != ""
 	srv := api.New(a.DB, a.log, limits, prog)
+	defer srv.Close()
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,
