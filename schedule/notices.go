@@ -20,6 +20,11 @@ func (p *Programme) Compliance(ctx context.Context, sc store.NoticeScope, ids ..
 	if err != nil {
 		return nil, err
 	}
+	return p.complianceOf(ctx, all, sc, ids...)
+}
+
+// complianceOf is Compliance with the active notices already read.
+func (p *Programme) complianceOf(ctx context.Context, all []*fleet.Notice, sc store.NoticeScope, ids ...string) ([]*fleet.Compliance, error) {
 	var notices []*fleet.Notice
 	for _, n := range all {
 		if len(ids) == 0 || contains(ids, n.ID) {
@@ -94,11 +99,11 @@ func (p *Programme) Compliance(ctx context.Context, sc store.NoticeScope, ids ..
 	return out, nil
 }
 
-// noticeItems adds the notices' readiness items for the airframe at the
-// moment at: a mandatory notice open past its window blocks, an advisory
-// one warns, and either warns when due soon.
-func (p *Programme) noticeItems(ctx context.Context, a *fleet.Airframe, at time.Time, block, warn note) error {
-	cs, err := p.Compliance(ctx, store.NoticeScope{AirframeID: a.ID, At: at})
+// noticeItems adds the active notices' readiness items for the airframe at
+// the moment at: a mandatory notice open past its window blocks, an
+// advisory one warns, and either warns when due soon.
+func (p *Programme) noticeItems(ctx context.Context, notices []*fleet.Notice, a *fleet.Airframe, at time.Time, block, warn note) error {
+	cs, err := p.complianceOf(ctx, notices, store.NoticeScope{AirframeID: a.ID, At: at})
 	if err != nil {
 		return err
 	}

@@ -40,13 +40,26 @@ type packFacts struct {
 // blockers stop it, warnings are for the pilot and technician to weigh. It
 // reads the due list, which is recomputed after every ingest, fit change and
 // work record and by the scheduler. Decision support only.
+//
+// Everything it reads comes in one pipelined round trip (store.ReadinessNow);
+// only active notices need more (their compliance facts).
 func (p *Programme) Readiness(ctx context.Context, airframeID string, packIDs []string) (*fleet.Readiness, error) {
 	now := p.Now().UTC()
-	f, err := p.factsNow(ctx, airframeID, packIDs, now)
+	rn, err := p.DB.ReadinessNow(ctx, airframeID, now, packIDs)
 	if err != nil {
 		return nil, err
 	}
-	return p.withRecords(ctx, assess(f, now, now), f.airframe, now)
+	f, err := factsFromNow(rn, packIDs)
+	if err != nil {
+		return nil, err
+	}
+	rd := assess(f, now, now)
+	block, warn := notes(rd)
+	if err := p.recordItemsFrom(ctx, rn.Notices, rn.Discrepancies, f.airframe, now, block, warn); err != nil {
+		return nil, err
+	}
+	rd.Ready = len(rd.Blockers) == 0
+	return rd, nil
 }
 
 // ReadinessAt answers whether the airframe was ready at the moment at with
@@ -176,8 +189,6 @@ func assessPacks(f *readinessFacts, block, warn note) {
 	}
 }
 
-// factsNow reads the facts now: the register as it stands and the stored
-// due list.
 // factsOf is the airframe's part of the facts as the store loaded them now.
 func factsOf(rf *store.ReadinessFacts, packIDs []string) *readinessFacts {
 	return &readinessFacts{airframe: rf.Airframe, layout: rf.Layout, retired: rf.Airframe.RetiredAt != nil,
@@ -207,45 +218,30 @@ func (p *Programme) FleetReadiness(ctx context.Context) ([]AirframeReadiness, er
 	return out, nil
 }
 
-func (p *Programme) factsNow(ctx context.Context, airframeID string, packIDs []string, now time.Time) (*readinessFacts, error) {
-	rf, err := p.DB.ReadinessFacts(ctx, airframeID, now)
-	if err != nil {
-		return nil, err
-	}
-	f := factsOf(rf, packIDs)
+// factsFromNow turns what the store read now into the facts assess weighs.
+func factsFromNow(rn *store.ReadinessNow, packIDs []string) (*readinessFacts, error) {
+	f := factsOf(rn.ReadinessFacts, packIDs)
 	for _, id := range packIDs {
-		pk, err := p.DB.Part(ctx, id)
-		if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+		pn := rn.Packs[id]
+		if pn == nil {
 			continue
-		} else if err != nil {
-			return nil, err
 		}
-		pf := &packFacts{part: pk, status: pk.Status}
+		pf := &packFacts{part: pn.Part, status: pn.Part.Status}
 		f.packs[id] = pf
-		if pk.Kind != fleet.KindPack {
+		if pn.Part.Kind != fleet.KindPack {
 			continue
 		}
-		raw, err := p.DB.PartHealth(ctx, pk.ID)
-		if err == nil {
+		if pn.Health != nil {
 			var v health.View
-			if err := json.Unmarshal(raw, &v); err != nil {
+			if err := json.Unmarshal(pn.Health, &v); err != nil {
 				return nil, err
 			}
 			if v.Pack != nil {
 				pf.reasons = v.Pack.Reasons
 			}
-		} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
-			return nil, err
 		}
-		open := true
-		evs, _, err := p.DB.Events(ctx, store.EventFilter{PartID: pk.ID, Kind: "pack_swelling", Open: &open}, store.Page{Limit: 1})
-		if err != nil {
-			return nil, err
-		}
-		pf.swollen = len(evs) > 0
-		if pf.due, err = p.DB.DueItems(ctx, store.DueFilter{SubjectID: pk.ID}); err != nil {
-			return nil, err
-		}
+		pf.swollen = pn.Swollen
+		pf.due = pn.Due
 	}
 	return f, nil
 }

@@ -3,6 +3,7 @@ package schedule_test
 import (
 	"encoding/json"
 	"fmt"
+	"reflect"
 	"slices"
 	"testing"
 	"time"
@@ -36,6 +37,14 @@ func (b *bench) readiness(a *fleet.Airframe, packs ...*fleet.Part) *fleet.Readin
 	rd, err := b.p.Readiness(b.ctx, a.ID, ids)
 	if err != nil {
 		b.t.Fatal(err)
+	}
+	// The batched reads must answer exactly as one query after another did.
+	old, err := b.p.ReadinessOneByOne(b.ctx, a.ID, ids)
+	if err != nil {
+		b.t.Fatal(err)
+	}
+	if !reflect.DeepEqual(rd, old) {
+		b.t.Fatalf("batched readiness differs from one query at a time:\n%+v\n%+v", rd, old)
 	}
 	return rd
 }

@@ -6,17 +6,13 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
 )
 
 // withRecords adds the maintenance records' items to a readiness answer
 // for the moment at (see recordItems).
 func (p *Programme) withRecords(ctx context.Context, rd *fleet.Readiness, a *fleet.Airframe, at time.Time) (*fleet.Readiness, error) {
-	block := func(code, subject, format string, args ...any) {
-		rd.Blockers = append(rd.Blockers, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
-	}
-	warn := func(code, subject, format string, args ...any) {
-		rd.Warnings = append(rd.Warnings, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
-	}
+	block, warn := notes(rd)
 	if err := p.recordItems(ctx, a, at, block, warn); err != nil {
 		return nil, err
 	}
@@ -29,11 +25,33 @@ func (p *Programme) withRecords(ctx context.Context, rd *fleet.Readiness, a *fle
 // then blocks, any other open discrepancy warns. Judged as of at, so a past readiness answer is what
 // the records said then.
 func (p *Programme) recordItems(ctx context.Context, a *fleet.Airframe, at time.Time, block, warn note) error {
-	if err := p.noticeItems(ctx, a, at, block, warn); err != nil {
+	notices, err := p.DB.ActiveNotices(ctx)
+	if err != nil {
 		return err
 	}
 	ds, err := p.DB.OpenDiscrepancies(ctx, a.ID, at)
 	if err != nil {
+		return err
+	}
+	return p.recordItemsFrom(ctx, notices, ds, a, at, block, warn)
+}
+
+// notes are the functions that add a blocker or a warning to rd.
+func notes(rd *fleet.Readiness) (block, warn note) {
+	block = func(code, subject, format string, args ...any) {
+		rd.Blockers = append(rd.Blockers, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
+	}
+	warn = func(code, subject, format string, args ...any) {
+		rd.Warnings = append(rd.Warnings, fleet.ReadinessItem{Code: code, Subject: subject, Message: fmt.Sprintf(format, args...)})
+	}
+	return block, warn
+}
+
+// recordItemsFrom is recordItems with the active notices and the
+// discrepancies open at the moment already read.
+func (p *Programme) recordItemsFrom(ctx context.Context, notices []*fleet.Notice, ds []store.OpenDiscrepancy, a *fleet.Airframe,
+	at time.Time, block, warn note) error {
+	if err := p.noticeItems(ctx, notices, a, at, block, warn); err != nil {
 		return err
 	}
 	for _, d := range ds {
