@@ -2,6 +2,7 @@ package api
 
 import (
 	"net/http"
+	"strconv"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -169,12 +170,24 @@ func (s *Server) getFitment(c *gin.Context) {
 	} else if t != nil {
 		at = *t
 	}
-	fm, err := s.db.Fitment(c.Request.Context(), id, at)
+	// The database writes the parts and empty places as the JSON sent
+	// (store.FitmentJSON); only the envelope is written here.
+	parts, empty, err := s.db.FitmentJSON(c.Request.Context(), id, at)
 	if err != nil {
 		s.fail(c, err)
 		return
 	}
-	c.JSON(http.StatusOK, fm)
+	b := make([]byte, 0, 64+len(parts)+len(empty))
+	b = append(b, `{"airframe_id":`...)
+	b = strconv.AppendQuote(b, id) // a canonical UUID: nothing to escape
+	b = append(b, `,"at":"`...)
+	b = at.UTC().AppendFormat(b, time.RFC3339Nano)
+	b = append(b, `","parts":`...)
+	b = append(b, parts...)
+	b = append(b, `,"empty":`...)
+	b = append(b, empty...)
+	b = append(b, '}')
+	c.Data(http.StatusOK, "application/json; charset=utf-8", b)
 }
 
 func (s *Server) listLayouts(c *gin.Context) {
