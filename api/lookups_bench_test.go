@@ -8,6 +8,9 @@ import (
 	"math/rand/v2"
 	"net/http"
 	"net/http/httptest"
+	"os"
+	"path/filepath"
+	"runtime/pprof"
 	"slices"
 	"sync"
 	"sync/atomic"
@@ -112,6 +115,9 @@ func paired(b *testing.B, ids []string, rng *rand.Rand, chunks, chunk, conc int,
 // It needs the service's cluster settings (fsync on), not the test ones:
 //
 //	ROTORWRIGHT_TEST_CLUSTER=service go test -bench Lookups -run '^$' -benchtime 1x -count 3 ./api
+//
+// ROTORWRIGHT_LOOKUP_PROFILE=DIR also writes DIR/fitment.pprof and
+// DIR/readiness.pprof, CPU profiles of the HTTP side alone.
 func BenchmarkLookups(b *testing.B) {
 	if !pgtest.ServiceSettings() {
 		b.Skip("set " + pgtest.EnvCluster + "=service: the figures must come from the service's cluster settings")
@@ -211,6 +217,25 @@ func BenchmarkLookups(b *testing.B) {
 			b.ReportMetric(slices.Min(ratios), l.name+"-ratio-min")
 			b.ReportMetric(slices.Max(ratios), l.name+"-ratio-max")
 			b.ReportMetric(float64(slices.Max(p99s).Microseconds())/1000, l.name+"-http-p99-ms-max")
+		}
+		if dir := os.Getenv("ROTORWRIGHT_LOOKUP_PROFILE"); dir != "" {
+			// A CPU profile of each lookup over HTTP alone (client included:
+			// same process), for `go tool pprof -top`.
+			for _, l := range lookups {
+				f, err := os.Create(filepath.Join(dir, l.name+".pprof"))
+				if err != nil {
+					b.Fatal(err)
+				}
+				if err := pprof.StartCPUProfile(f); err != nil {
+					b.Fatal(err)
+				}
+				var s sample
+				for range 10 {
+					s.drive(b, ids[:], lookupConc, l.http)
+				}
+				pprof.StopCPUProfile()
+				f.Close()
+			}
 		}
 		// The fitment's SQL writes the whole answer as JSON now; against the
 		// query that left the empty places to Go, so a heavier query cannot
