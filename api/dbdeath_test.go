@@ -133,8 +133,13 @@ func TestDatabaseDiesMidTransaction(t *testing.T) {
 	if r.Header.Get("Retry-After") == "" {
 		t.Errorf("503 without Retry-After")
 	}
-	if strings.Contains(logs.String(), "level=ERROR") {
-		t.Errorf("a database outage is logged as an internal error:\n%s", logs.String())
+	// The killed backend makes the server restart all of them, so the
+	// database may really be gone for a moment: "database lost" is the one
+	// error line allowed (issue 14); the request is no internal error.
+	for _, line := range strings.Split(logs.String(), "\n") {
+		if strings.Contains(line, "level=ERROR") && !strings.Contains(line, `msg="database lost"`) {
+			t.Errorf("a database outage is logged as an internal error:\n%s", logs.String())
+		}
 	}
 }
 

@@ -1,6 +1,9 @@
 package api
 
-import "crypto/sha256"
+import (
+	"crypto/sha256"
+	"time"
+)
 
 // KeyCached reports whether the server would answer token from its key
 // cache (its listener listening and the key held).
@@ -9,4 +12,12 @@ func KeyCached(s *Server, token string) bool {
 	defer s.keys.mu.Unlock()
 	_, ok := s.keys.keys[sha256.Sum256([]byte(token))]
 	return ok && s.keys.live
+}
+
+// SetFiguresTTL sets how long the metrics keep the figures read from the
+// database, so a test can read them afresh at each scrape.
+func SetFiguresTTL(s *Server, d time.Duration) {
+	s.figures.mu.Lock()
+	defer s.figures.mu.Unlock()
+	s.figures.ttl = d
 }

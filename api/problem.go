@@ -19,7 +19,10 @@ import (
 // is the common convention for it.
 const StatusClientGone = 499
 
-const ctxClientGone = "client_gone"
+const (
+	ctxClientGone  = "client_gone"
+	ctxProblemCode = "problem_code" // the code of the problem a request was answered with
+)
 
 // statusOf maps each fleet error code to one HTTP status.
 var statusOf = map[string]int{
@@ -98,6 +101,7 @@ func (s *Server) fail(c *gin.Context, err error) {
 		s.log.Error("request failed", "err", err, "method", c.Request.Method, "path", c.Request.URL.Path,
 			"request_id", c.GetString(ctxRequestID), "client_request_id", c.GetString(ctxClientRequestID))
 	} else if status == http.StatusServiceUnavailable {
+		s.dbState.suspect(c.Request.Context())
 		s.log.Warn("request unavailable", "detail", p.Detail, "method", c.Request.Method, "path", c.Request.URL.Path,
 			"request_id", c.GetString(ctxRequestID), "err", err)
 	} else {
@@ -111,6 +115,7 @@ func (s *Server) fail(c *gin.Context, err error) {
 			c.Header("Retry-After", "5") // seconds: a database restart or a full queue passes soon
 		}
 	}
+	c.Set(ctxProblemCode, p.Code)
 	c.Header("Content-Type", "application/problem+json")
 	c.AbortWithStatusJSON(status, p)
 }

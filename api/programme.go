@@ -314,7 +314,10 @@ func (s *Server) partsForecast(c *gin.Context) {
 // (see schedule.Programme.AfterFlight); a failure is logged and repaired by
 // the next record reaching those flights and the scheduled recompute.
 func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight) {
-	if err := s.prog.AfterFlight(ctx, f); err != nil {
+	start := time.Now()
+	err := s.prog.AfterFlight(ctx, f)
+	s.metrics.recompute("after_flight", start, err)
+	if err != nil {
 		s.log.Error("after a flight", "flight", f.ID, "err", err)
 	}
 }
@@ -322,7 +325,10 @@ func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight) {
 // afterRecord does the same after a record taking effect at from on the
 // airframe and parts (see schedule.Programme.AfterRecord).
 func (s *Server) afterRecord(ctx context.Context, airframeID string, parts []string, from time.Time) {
-	if err := s.prog.AfterRecord(ctx, airframeID, parts, from); err != nil {
+	start := time.Now()
+	err := s.prog.AfterRecord(ctx, airframeID, parts, from)
+	s.metrics.recompute("after_record", start, err)
+	if err != nil {
 		s.log.Error("after a record", "airframe", airframeID, "parts", parts, "err", err)
 	}
 }
@@ -330,7 +336,10 @@ func (s *Server) afterRecord(ctx context.Context, airframeID string, parts []str
 // recomputeFleet recomputes the whole due list after a programme change; a
 // failure is logged and repaired by the scheduled recompute.
 func (s *Server) recomputeFleet(ctx context.Context) {
-	if _, err := s.prog.RecomputeFleet(ctx); err != nil {
+	start := time.Now()
+	_, err := s.prog.RecomputeFleet(ctx)
+	s.metrics.recompute("fleet", start, err)
+	if err != nil {
 		s.log.Error("due recompute", "err", err)
 	}
 }

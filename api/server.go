@@ -108,7 +108,9 @@ type Server struct {
 	ingest  *ingest.Ingester
 	health  *health.Service
 	prog    *schedule.Programme
-	metrics *metrics
+	metrics *Metrics
+	dbState *dbState
+	figures *dbFigures // the metrics' figures from the database
 	limit   *limiters
 	engine  *gin.Engine
 	board   *web.Board
@@ -240,6 +242,9 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
+	s.dbState = &dbState{log: log, up: s.metrics.dbUp, ping: db.Ping}
+	s.figures = newDBFigures(db.OpsFigures, s.dbState)
+	s.metrics.reg.MustRegister(s.figures, newPoolStats(db.Pool()))
 	s.ingest = &ingest.Ingester{DB: db, Health: hs, Judge: s.prog.JudgeTakeoff,
 		Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes},
 		After: func(ctx context.Context, f *fleet.Flight) error {
@@ -253,7 +258,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	if err := e.SetTrustedProxies(limits.TrustedProxies); err != nil {
 		log.Error("trusted proxies", "err", err) // checked at start-up by the command
 	}
-	e.Use(s.metrics.observe(), s.recovery(), s.requestID(), s.limitAddr(), s.minBodyRate(), s.checkQuery())
+	e.Use(s.accessLog(), s.metrics.observe(), s.recovery(), s.requestID(), s.limitAddr(), s.minBodyRate(), s.checkQuery())
 	for _, r := range Routes {
 		h := r.handler
 		chain := []gin.HandlerFunc{}
@@ -267,7 +272,7 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 			limit := limits.JSONBytes
 			if r.Path == "/v1/flights" {
 				limit = limits.LogBytes + limits.JSONBytes
-				chain = append(chain, s.capIngests()) // before any of the body is read
+				chain = append(chain, s.metrics.observeIngest(), s.capIngests()) // before any of the body is read
 			}
 			chain = append(chain, s.idempotency(limit))
 		}

@@ -73,6 +73,10 @@ type Deliverer struct {
 	// SigningKey, when set, signs every delivery (see Sign); without it
 	// deliveries go unsigned.
 	SigningKey []byte
+	// Observe, when set, hears each recorded attempt on a row: outcome
+	// "delivered", "failed" (another attempt follows) or "given_up", and
+	// the attempt's number from 1 (the metrics' hook; it must not block).
+	Observe func(outcome string, attempt int)
 }
 
 // DefaultBackoff is exponential backoff with "equal jitter": the delay
@@ -220,6 +224,16 @@ func (d *Deliverer) deliverNext(ctx context.Context, seen []uuid.UUID) (id uuid.
 	}
 	if err != nil {
 		return uuid.Nil, false, fmt.Errorf("outbox: record attempt: %w", err)
+	}
+	if d.Observe != nil {
+		outcome := "delivered"
+		if len(errs) > 0 {
+			outcome = "failed"
+			if attempts >= limit {
+				outcome = "given_up"
+			}
+		}
+		d.Observe(outcome, attempts)
 	}
 	return dl.DeliveryID, len(errs) == 0, nil
 }

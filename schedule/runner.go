@@ -43,6 +43,10 @@ type Config struct {
 	Location  *time.Location // time zone of the specs; nil means UTC
 	Timeout   time.Duration  // longest a run may take; 0 means 10 minutes
 	Logger    *slog.Logger   // nil means slog.Default()
+	// Observe, when set, hears every run attempt once it has ended: its
+	// status (StatusOK, StatusFailed, StatusSkipped) and how long it took
+	// (the metrics' hook; it must not block).
+	Observe func(job, status string, took time.Duration)
 }
 
 // Result is the outcome of one run attempt.
@@ -232,6 +236,16 @@ func LockKey(name string) int64 {
 func (r *Runner) run(ctx context.Context, j *job, tick time.Time) (res Result, err error) {
 	r.wg.Add(1)
 	defer r.wg.Done()
+	if r.cfg.Observe != nil {
+		start := time.Now()
+		defer func() {
+			status := res.Status
+			if err != nil || status == "" {
+				status = StatusFailed // failed before a run was recorded (begin, lock)
+			}
+			r.cfg.Observe(j.name, status, time.Since(start))
+		}()
+	}
 	ctx, cancel := context.WithTimeout(ctx, r.cfg.Timeout)
 	defer cancel()
 

@@ -45,7 +45,7 @@ func NewApp(cfg Config) *App { return newApp(cfg, os.Stdout, os.Stderr) }
 // newApp makes an unopened app: command output goes to stdout, the log to
 // stderr.
 func newApp(cfg Config, stdout, stderr io.Writer) *App {
-	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: cfg.LogLevel}))
+	log := newLogger(stderr, cfg.LogLevel, cfg.LogFormat)
 	return &App{cfg: cfg, command: "serve", out: stdout, errOut: stderr, log: log, Addr: make(chan string, 1)}
 }
 
@@ -159,8 +159,9 @@ func (a *App) programme() *schedule.Programme {
 
 // startSchedule starts the scheduled jobs (every replica runs the clock; the
 // advisory lock lets one run each tick) and the webhook deliverer.
-func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop func(), err error) {
-	r, err := schedule.NewRunner(a.DB.Pool(), schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log})
+func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics) (stop func(), err error) {
+	r, err := schedule.NewRunner(a.DB.Pool(), schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log,
+		Observe: m.JobRun})
 	if err != nil {
 		return nil, err
 	}
@@ -201,6 +202,9 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 	} else if len(a.cfg.Webhooks) > 0 {
 		a.log.Warn("webhook deliveries are unsigned: set ROTORWRIGHT_WEBHOOK_SECRET so receivers can verify them")
 	}
+	m.SetWebhookURLs(len(a.cfg.Webhooks))
+	m.InitJob("recompute")
+	m.InitJob("nightly")
 	r.Start()
 	dctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	done := make(chan struct{})
@@ -210,7 +214,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme) (stop
 			return
 		}
 		d := &schedule.Deliverer{Pool: a.DB.Pool(), URLs: a.cfg.Webhooks, Logger: a.log,
-			Client: schedule.NewClient(policy, 10*time.Second), SigningKey: key}
+			Client: schedule.NewClient(policy, 10*time.Second), SigningKey: key, Observe: m.Delivery}
 		d.Run(dctx, 10*time.Second)
 	}()
 	return func() {
@@ -248,6 +252,10 @@ func (a *App) serveMetrics(srv *api.Server) (stop func(), err error) {
 	}, nil
 }
 
+// dbWatchEvery is how often the server pings the database to log its loss
+// and return.
+const dbWatchEvery = 5 * time.Second
+
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
 	if n, err := a.DB.StaleLogs(ctx, ingest.AnalysisVersion); err != nil {
@@ -257,15 +265,20 @@ func (a *App) Run(ctx context.Context) error {
 			"or now with `rotorwright reanalyze`", "logs", n, "analysis_version", ingest.AnalysisVersion)
 	}
 	prog := a.programme()
-	stopSchedule, err := a.startSchedule(ctx, prog)
-	if err != nil {
-		return err
-	}
-	defer stopSchedule() // after the server drains: shutdown order per STYLE 14
 	limits := a.cfg.Limits
 	limits.MetricsElsewhere = a.cfg.MetricsAddr != ""
 	srv := api.New(a.DB, a.log, limits, prog)
 	defer srv.Close()
+	stopSchedule, err := a.startSchedule(ctx, prog, srv.Metrics())
+	if err != nil {
+		return err
+	}
+	defer stopSchedule() // after the server drains: shutdown order per STYLE 14
+	// Database loss and return are logged within this of happening, even
+	// with no requests.
+	wctx, stopWatch := context.WithCancel(ctx)
+	defer stopWatch()
+	go srv.WatchDatabase(wctx, dbWatchEvery)
 	a.server = &http.Server{
 		Handler:           srv.Handler(),
 		ReadHeaderTimeout: 10 * time.Second,

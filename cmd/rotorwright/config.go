@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"io"
 	"log/slog"
 	"os"
 	"strings"
@@ -24,6 +25,9 @@ type Config struct {
 	Home             string
 	Addr             string
 	LogLevel         slog.Level
+	// LogFormat is "text" (logfmt-style key=value, the default) or "json"
+	// (one JSON object per line, for log collectors).
+	LogFormat string
 	// Webhooks receive due-status notifications; private and loopback
 	// targets need WebhooksAllowPrivate / WebhooksAllowLoopback (SSRF guard).
 	Webhooks              []string
@@ -47,6 +51,10 @@ func ConfigFromEnv() (Config, error) {
 		OwnerDatabaseURL: os.Getenv("ROTORWRIGHT_OWNER_DATABASE_URL"),
 		Home:             envOr("ROTORWRIGHT_HOME", "./.rotorwright"),
 		Addr:             envOr("ROTORWRIGHT_ADDR", "127.0.0.1:8080"),
+		LogFormat:        envOr("ROTORWRIGHT_LOG_FORMAT", "text"),
+	}
+	if err := (*formatFlag)(&c.LogFormat).Set(c.LogFormat); err != nil {
+		return c, fmt.Errorf("ROTORWRIGHT_LOG_FORMAT: %w", err)
 	}
 	for _, u := range strings.Split(os.Getenv("ROTORWRIGHT_WEBHOOKS"), ",") {
 		if u = strings.TrimSpace(u); u != "" {
@@ -73,6 +81,7 @@ func (c *Config) bindDatabase(fs *pflag.FlagSet) {
 	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: the embedded cluster)")
 	fs.StringVar(&c.Home, "home", c.Home, "data folder of the embedded cluster (env ROTORWRIGHT_HOME)")
 	fs.Var((*levelFlag)(&c.LogLevel), "log-level", "debug, info, warn or error (env ROTORWRIGHT_LOG_LEVEL)")
+	fs.Var((*formatFlag)(&c.LogFormat), "log-format", "text or json: one JSON object per log line (env ROTORWRIGHT_LOG_FORMAT)")
 	hideDefault(fs, "database-url")
 }
 
@@ -117,6 +126,28 @@ func (l *levelFlag) Set(s string) error {
 		return fmt.Errorf("%q is not debug, info, warn or error", s)
 	}
 	return nil
+}
+
+// formatFlag is the log format as a flag value.
+type formatFlag string
+
+func (f *formatFlag) String() string { return string(*f) }
+func (f *formatFlag) Type() string   { return "format" }
+func (f *formatFlag) Set(s string) error {
+	if s != "text" && s != "json" {
+		return fmt.Errorf("%q is not text or json", s)
+	}
+	*f = formatFlag(s)
+	return nil
+}
+
+// newLogger is the process's logger in the configured format, to w.
+func newLogger(w io.Writer, level slog.Level, format string) *slog.Logger {
+	opts := &slog.HandlerOptions{Level: level}
+	if format == "json" {
+		return slog.New(slog.NewJSONHandler(w, opts))
+	}
+	return slog.New(slog.NewTextHandler(w, opts))
 }
 
 // envDuration reads a Go duration ("30s", "2m") from the environment.

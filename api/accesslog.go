@@ -1,0 +1,45 @@
+package api
+
+import (
+	"log/slog"
+	"time"
+
+	"github.com/gin-gonic/gin"
+)
+
+// accessLog writes one line per request once it is answered: method, route
+// template and path (no query string: it may carry what a client would not
+// have logged), status (499 when the client went away), response bytes,
+// time, client address, our request id and the client's X-Request-ID. It is
+// the outermost middleware, so refusals by the limits are logged too.
+func (s *Server) accessLog() gin.HandlerFunc {
+	return func(c *gin.Context) {
+		start := time.Now()
+		c.Next()
+		status := c.Writer.Status()
+		if c.GetBool(ctxClientGone) {
+			status = StatusClientGone
+		}
+		route := c.FullPath()
+		if route == "" {
+			route = "unmatched"
+		}
+		attrs := []slog.Attr{
+			slog.String("method", c.Request.Method),
+			slog.String("route", route),
+			slog.String("path", c.Request.URL.Path),
+			slog.Int("status", status),
+			slog.Int("bytes", max(c.Writer.Size(), 0)),
+			slog.Float64("duration_ms", float64(time.Since(start).Microseconds())/1000),
+			slog.String("remote", c.ClientIP()),
+			slog.String("request_id", c.GetString(ctxRequestID)),
+		}
+		if id := c.GetString(ctxClientRequestID); id != "" {
+			attrs = append(attrs, slog.String("client_request_id", id))
+		}
+		if code := c.GetString(ctxProblemCode); code != "" {
+			attrs = append(attrs, slog.String("problem", code))
+		}
+		s.log.LogAttrs(c.Request.Context(), slog.LevelInfo, "request", attrs...)
+	}
+}
