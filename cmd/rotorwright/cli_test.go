@@ -85,6 +85,7 @@ func TestUsageErrorsExit2(t *testing.T) {
 		{[]string{"demo", "--months", "0"}, "--months must be at least 1"},
 		{[]string{"demo", "--months", "four"}, `invalid argument "four" for "--months"`},
 		{[]string{"serve", "--log-level", "loud"}, `"loud" is not debug, info, warn or error`},
+		{[]string{"serve", "--log-format", "xml"}, `"xml" is not text or json`},
 	} {
 		args := tc.args
 		if len(args) > 0 && args[0] != "key" && args[0] != "sevre" {
