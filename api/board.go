@@ -17,8 +17,10 @@ import (
 // queries and hands it to web to render. Query counts below include the
 // session lookup.
 
-// boardFleet is the fleet page: 8 queries (session, 5 for every airframe's
-// readiness facts, totals, open events).
+// boardFleet is the fleet page: 10 queries (session, 5 for every airframe's
+// readiness facts, the active notices, open discrepancies, totals, open
+// events); with notices active, their facts in a few more, plus one per
+// subject of a notice with a usage window, as the readiness route does.
 func (s *Server) boardFleet(c *gin.Context) {
 	ctx := c.Request.Context()
 	all, err := s.prog.FleetReadiness(ctx)

@@ -107,6 +107,12 @@ func (p *Programme) noticeItems(ctx context.Context, notices []*fleet.Notice, a 
 	if err != nil {
 		return err
 	}
+	noticeItemsOf(cs, block, warn)
+	return nil
+}
+
+// noticeItemsOf judges the compliance of an airframe's subjects.
+func noticeItemsOf(cs []*fleet.Compliance, block, warn note) {
 	for _, c := range cs {
 		if c.DueStatus == nil || c.Status == fleet.ComplianceNotApplicable {
 			continue
@@ -120,7 +126,6 @@ func (p *Programme) noticeItems(ctx context.Context, notices []*fleet.Notice, a 
 			warn(fleet.ReadyNoticeDueSoon, c.Subject, "%s notice %s is due soon on %s (%s)", c.Category, c.Reference, c.Subject, c.DueReason)
 		}
 	}
-	return nil
 }
 
 // noticeDueItems turns the open compliance of a scope into due-list items.

@@ -196,28 +196,6 @@ func factsOf(rf *store.ReadinessFacts, packIDs []string) *readinessFacts {
 		packIDs: packIDs, packs: map[string]*packFacts{}}
 }
 
-// AirframeReadiness is one airframe's readiness with the facts behind it.
-type AirframeReadiness struct {
-	Facts     *store.ReadinessFacts
-	Readiness *fleet.Readiness
-}
-
-// FleetReadiness answers Readiness (without packs) for every airframe, from
-// the same facts loaded fleet-wide in a few queries and judged by the same
-// assess, in tail-code order.
-func (p *Programme) FleetReadiness(ctx context.Context) ([]AirframeReadiness, error) {
-	now := p.Now().UTC()
-	all, err := p.DB.FleetReadinessFacts(ctx, now)
-	if err != nil {
-		return nil, err
-	}
-	out := make([]AirframeReadiness, len(all))
-	for i, rf := range all {
-		out[i] = AirframeReadiness{Facts: rf, Readiness: assess(factsOf(rf, nil), now, now)}
-	}
-	return out, nil
-}
-
 // factsFromNow turns what the store read now into the facts assess weighs.
 func factsFromNow(rn *store.ReadinessNow, packIDs []string) (*readinessFacts, error) {
 	f := factsOf(rn.ReadinessFacts, packIDs)

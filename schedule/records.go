@@ -54,6 +54,12 @@ func (p *Programme) recordItemsFrom(ctx context.Context, notices []*fleet.Notice
 	if err := p.noticeItems(ctx, notices, a, at, block, warn); err != nil {
 		return err
 	}
+	discrepancyItems(ds, block, warn)
+	return nil
+}
+
+// discrepancyItems judges an airframe's open discrepancies.
+func discrepancyItems(ds []store.OpenDiscrepancy, block, warn note) {
 	for _, d := range ds {
 		found := d.FoundAt.UTC().Format("2006-01-02")
 		if d.Grounding {
@@ -62,5 +68,4 @@ func (p *Programme) recordItemsFrom(ctx context.Context, notices []*fleet.Notice
 			warn(fleet.ReadyOpenDiscrepancy, d.Subject, "open discrepancy on %s found %s: %s", d.Subject, found, d.Description)
 		}
 	}
-	return nil
 }

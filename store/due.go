@@ -214,18 +214,28 @@ type DueFilter struct {
 // dueItemsSQL lists due items, most urgent first ($1 status, $2 airframe,
 // $3 forecast before, $4 subject; empty or NULL: any).
 const dueItemsSQL = `
-		SELECT d.rule_id, d.notice_id, coalesce(r.name, n.reference || ' rev ' || n.revision || ': ' || n.title),
-			coalesce(r.action, 'comply'), d.subject_kind, d.subject_id,
-			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
-			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.forecast_reason, d.computed_at
-		FROM due_items d LEFT JOIN service_rules r ON r.id = d.rule_id LEFT JOIN notices n ON n.id = d.notice_id
-		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
-		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id
+		SELECT ` + dueItemCols + `
+		FROM due_items d ` + dueItemJoins + `
 		WHERE ($1 = '' OR d.status = $1) AND ($2::uuid IS NULL OR d.airframe_id = $2)
 		  AND ($3::timestamptz IS NULL OR d.status = 'overdue' OR d.forecast_date < $3)
 		  AND ($4::uuid IS NULL OR d.subject_id = $4)
-		ORDER BY CASE d.status WHEN 'overdue' THEN 0 WHEN 'due_soon' THEN 1 ELSE 2 END,
-			d.forecast_date NULLS LAST, d.fraction DESC`
+		ORDER BY ` + dueUrgency
+
+// dueItemCols, dueItemJoins and dueUrgency are a due item as the due list
+// reads it (d is due_items) and its order, most urgent first; the last keys
+// only make ties come out the same way in every query that reads the list
+// (the fleet page reads a part of it: see fleetDueSQL).
+const (
+	dueItemCols = `d.rule_id, d.notice_id, coalesce(r.name, n.reference || ' rev ' || n.revision || ': ' || n.title),
+			coalesce(r.action, 'comply'), d.subject_kind, d.subject_id,
+			coalesce(a.code, p.serial, ''), d.airframe_id, d.part_number, d.last_done_at, d.since, d.usage,
+			d.fraction, d.status, d.grounding, d.reason, d.forecast_date, d.forecast_reason, d.computed_at`
+	dueItemJoins = `LEFT JOIN service_rules r ON r.id = d.rule_id LEFT JOIN notices n ON n.id = d.notice_id
+		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
+		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id`
+	dueUrgency = `CASE d.status WHEN 'overdue' THEN 0 WHEN 'due_soon' THEN 1 ELSE 2 END,
+			d.forecast_date NULLS LAST, d.fraction DESC, d.subject_id, coalesce(d.rule_id, d.notice_id)`
+)
 
 func dueItemsArgs(f DueFilter) []any {
 	return []any{f.Status, nilIfEmpty(f.AirframeID), f.Before, nilIfEmpty(f.SubjectID)}
