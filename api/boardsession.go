@@ -2,8 +2,11 @@ package api
 
 import (
 	"bytes"
+	"fmt"
+	"math"
 	"net/http"
 	"net/url"
+	"strconv"
 	"strings"
 	"time"
 
@@ -75,6 +78,18 @@ func (s *Server) signIn(c *gin.Context) {
 			Data: signInData{Error: "This form may only be sent from the board itself."}})
 		return
 	}
+	// The same per-address lockout as bearer tokens (authenticate): a
+	// pasted token is a guess like any other.
+	addr := c.ClientIP()
+	if s.limit.auth != nil {
+		if locked, wait := s.limit.auth.lockedOut(addr); locked {
+			secs := int(math.Ceil(max(wait, time.Second).Seconds()))
+			c.Header("Retry-After", strconv.Itoa(secs))
+			s.renderPage(c, http.StatusTooManyRequests, web.Page{Name: "signin", Title: "Sign in", Data: signInData{
+				Error: fmt.Sprintf("Too many failed sign-ins from this address: try again in %d s.", secs)}})
+			return
+		}
+	}
 	c.Request.Body = http.MaxBytesReader(c.Writer, c.Request.Body, 4<<10)
 	token := strings.TrimSpace(c.PostForm("token"))
 	if token == "" {
@@ -84,6 +99,9 @@ func (s *Server) signIn(c *gin.Context) {
 	}
 	k, err := s.db.Authenticate(c.Request.Context(), token)
 	if fleet.ErrorCode(err) == fleet.EUNAUTHORIZED {
+		if s.limit.auth != nil {
+			s.limit.auth.failed(addr, s.limit.authWindow)
+		}
 		s.renderPage(c, http.StatusUnauthorized, web.Page{Name: "signin", Title: "Sign in",
 			Data: signInData{Error: "That token is unknown or revoked."}})
 		return
