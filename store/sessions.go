@@ -80,3 +80,39 @@ func (db *DB) EndSession(ctx context.Context, token string) error {
 		return audit(ctx, tx, "board_session", s.ID, s, nil)
 	})
 }
+
+// PurgeSessions deletes up to limit board sessions that can no longer be
+// used (expired, ended, or of a revoked key), longest expired first, each
+// with its audit row, and returns how many went. The limit keeps one run
+// short however many have piled up; the scheduled job comes back each tick.
+// Sessions another transaction holds are left for the next run.
+func (db *DB) PurgeSessions(ctx context.Context, limit int) (int, error) {
+	n := 0
+	err := db.inTx(ctx, func(tx pgx.Tx) error {
+		n = 0
+		rows, err := tx.Query(ctx, `
+			DELETE FROM board_sessions WHERE id IN (
+				SELECT s.id FROM board_sessions s JOIN api_keys k ON k.id = s.api_key_id
+				WHERE s.ended_at IS NOT NULL OR s.expires_at <= $1 OR k.revoked_at IS NOT NULL
+				ORDER BY s.expires_at, s.id LIMIT $2 FOR UPDATE OF s SKIP LOCKED)
+			RETURNING id, api_key_id, expires_at`, db.now(), limit)
+		if err != nil {
+			return err
+		}
+		gone, err := collect(rows, func(r pgx.Row) (BoardSession, error) {
+			var s BoardSession
+			return s, r.Scan(&s.ID, &s.APIKeyID, &s.ExpiresAt)
+		})
+		if err != nil {
+			return err
+		}
+		for _, s := range gone {
+			if err := audit(ctx, tx, "board_session", s.ID, s, nil); err != nil {
+				return err
+			}
+		}
+		n = len(gone)
+		return nil
+	})
+	return n, translate(err)
+}

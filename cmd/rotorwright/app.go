@@ -157,6 +157,10 @@ func (a *App) programme() *schedule.Programme {
 	return p
 }
 
+// sessionPurgeBatch bounds the board sessions one run deletes (each with an
+// audit row), so a run stays short however many have piled up.
+const sessionPurgeBatch = 1000
+
 // startSchedule starts the scheduled jobs (every replica runs the clock; the
 // advisory lock lets one run each tick) and the webhook deliverer.
 func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics) (stop func(), err error) {
@@ -185,6 +189,15 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 		res, err := prog.RecomputeAll(ctx)
 		return map[string]int{"reanalysed": stale, "health_views": res.HealthViews, "judged_flights": res.Judged,
 			"due_items": res.DueItems}, err
+	}); err != nil {
+		return nil, err
+	}
+	// Board sessions that can no longer be used (expired, ended, of a
+	// revoked key) are deleted on the recompute's clock, a bounded batch a
+	// run; the lookup already refuses them, this keeps the table small.
+	if err := r.Register("sessions", cfg.Recompute, func(ctx context.Context, _ pgx.Tx) (map[string]int, error) {
+		n, err := a.DB.PurgeSessions(store.WithActor(ctx, store.Actor{Name: "sessions", Method: "JOB", Route: "sessions"}), sessionPurgeBatch)
+		return map[string]int{"sessions_deleted": n}, err
 	}); err != nil {
 		return nil, err
 	}
