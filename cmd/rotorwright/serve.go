@@ -32,15 +32,17 @@ board and API addresses with its token, then serve like serve does.`,
 		RunE: func(cmd *cobra.Command, _ []string) error { return c.serve(cmd, true, months) },
 	}
 	c.cfg.bindServe(cmd.Flags())
-	cmd.Flags().IntVar(&months, "months", months, "months of simulated flights in the demo fleet")
+	cmd.Flags().IntVar(&months, "months", months, "months of simulated flights in the demo fleet (at least 2)")
 	return cmd
 }
 
 // serve opens the app (migrating), loads the demo when asked and serves
 // until the command's context ends.
 func (c *cli) serve(cmd *cobra.Command, demo bool, months int) error {
-	if demo && months < 1 {
-		return usagef("--months must be at least 1, not %d", months)
+	// The demo's stories need two months of flights (sim.DemoFleet
+	// simulates at least two, so a shorter demo would end in the future).
+	if demo && months < 2 {
+		return usagef("--months must be at least 2, not %d", months)
 	}
 	ctx := cmd.Context()
 	app := newApp(c.cfg, c.stdout, c.stderr)
