@@ -64,10 +64,12 @@ func Load(ctx context.Context, db *store.DB, sc *sim.Scenario, progress Progress
 		{"parts", l.loadParts},
 		{"fits", l.loadFits},
 		{"jobs", l.loadJobs},
+		// Before the flights, so each is judged at take-off with its
+		// inspections on record (none is re-judged later).
+		{"inspections", l.loadInspections},
 		{"flights", func(sc *sim.Scenario) error { return l.loadFlights(sc, progress) }},
 		{"events", l.loadEvents},
 		{"pack checks", l.loadPackChecks},
-		{"inspections", l.loadInspections},
 		{"part statuses", l.loadStatuses},
 		{"health and due list", func(*sim.Scenario) error {
 			r, err := schedule.NewProgramme(l.db, health.New(l.db)).RecomputeAll(l.ctx)
@@ -221,37 +223,6 @@ func (l *loader) loadWork(w *sim.WorkRecord) error {
 	}
 	_, err := l.db.CreateWorkRecord(l.ctx, rec)
 	return err
-}
-
-// loadInspections records each airframe's last periodic inspection, a few
-// days to a few weeks before the scenario's end, as a firm keeping its
-// programme would have (the story airframes keep their open events).
-func (l *loader) loadInspections(sc *sim.Scenario) error {
-	rules, err := l.db.Rules(l.ctx)
-	if err != nil {
-		return err
-	}
-	var rule *string
-	for _, r := range rules {
-		if r.Name == "airframe periodic inspection" {
-			rule = &r.ID
-		}
-	}
-	if rule == nil {
-		return nil // the firm edited the default programme away
-	}
-	approver := "J. Marsh"
-	for i, a := range sc.Airframes {
-		id := l.airframes[a.Code]
-		at := sc.End.Add(-time.Duration(6+5*i)*24*time.Hour - 9*time.Hour)
-		_, err := l.db.CreateWorkRecord(l.ctx, &fleet.WorkRecord{At: at, AirframeID: &id, RuleID: rule, Action: "inspect",
-			Work:        "periodic inspection: arms, mounts, fasteners, wiring, connectors; no discrepancies",
-			PerformedBy: "R. Castell", ApprovedBy: &approver})
-		if err != nil {
-			return fmt.Errorf("%s: %w", a.Code, err)
-		}
-	}
-	return nil
 }
 
 func (l *loader) loadJobs(sc *sim.Scenario) error {
