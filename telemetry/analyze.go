@@ -4,7 +4,6 @@ import (
 	"errors"
 	"math"
 	"slices"
-	"sort"
 
 	"github.com/rotorwright/rotorwright/fleet"
 )
@@ -230,6 +229,7 @@ type analysis struct {
 	throttle   []float64
 	cells      [][]float64 // per l.Cells, nil where the column is absent
 	baro, temp []float64
+	pw         []float64 // pack power, V x A, at each sample (electrical)
 }
 
 // Analyze computes the figures of one flight from a parsed log. It is pure.
@@ -306,22 +306,29 @@ func (a *analysis) activity() {
 		a.note("no rpm or throttle column: run time, airborne span and rotor figures are not computed")
 	}
 	if level != nil {
-		on := make([]float64, l.Rows)
+		// The run time is the integral of on (1 above idle, 0 at or below,
+		// NaN without a reading, whose time is left out), taken as integral
+		// takes it, without storing on.
 		first, last := -1, -1
+		run, prev := 0.0, math.NaN()
 		for i, v := range level {
+			on := 0.0
 			switch {
 			case v > idle:
-				on[i] = 1
+				on = 1
 				if first < 0 {
 					first = i
 				}
 				last = i
 			case v != v:
-				on[i] = v // no reading: the time is left out
+				on = v // no reading: the time is left out
 			}
+			if i > 0 && on == on && prev == prev {
+				run += (l.T[i] - l.T[i-1]) * (prev + on)
+			}
+			prev = on
 		}
-		run, _, _ := integral(l.T, on)
-		m.RunS = ptr(run)
+		m.RunS = ptr(run / 2)
 		a.runLo, a.runHi = first, last
 		if first >= 0 && a.p.Airborne == nil {
 			a.lo, a.hi = liftSpan(level, first, last)
@@ -358,7 +365,7 @@ const LiftFraction = 0.8
 // landing is not airborne. Samples without a reading are passed over.
 func liftSpan(level []float64, first, last int) (lo, hi int) {
 	run := slices.DeleteFunc(slices.Clone(level[first:last+1]), func(v float64) bool { return v != v })
-	sort.Float64s(run)
+	nthElement(run, len(run)/2) // the sort's middle value, without the sort
 	threshold := LiftFraction * run[len(run)/2]
 	lo, hi = first, last
 	for lo < last && !(level[lo] >= threshold) {
@@ -376,11 +383,7 @@ func (a *analysis) efficiency() {
 	if a.lo < 0 {
 		return
 	}
-	pw := make([]float64, l.Rows)
-	for i := range pw {
-		pw[i] = l.PackV[i] * l.PackA[i]
-	}
-	m.AirbornePowerW = ptr(meanOver(l.T, pw, a.lo, a.hi))
+	m.AirbornePowerW = ptr(meanOver(l.T, a.pw, a.lo, a.hi))
 	n := p.Rotors
 	if n == 0 {
 		n = len(l.RPM)

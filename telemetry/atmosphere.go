@@ -88,11 +88,13 @@ func (a *analysis) altitude() {
 		a.note("no baro_pa reading before take-off (or in the log's first second): height above take-off is not computed")
 		return
 	}
-	top := math.Inf(-1)
+	// Pressure altitude falls as pressure rises: the highest point is at
+	// the least pressure read, so one conversion serves (not one a sample).
+	least := math.Inf(1)
 	for _, pa := range l.Baro {
-		if pa == pa {
-			top = max(top, PressureAltitude(pa))
+		if pa < least {
+			least = pa
 		}
 	}
-	a.m.MaxAltM = ptr(top - median(ref))
+	a.m.MaxAltM = ptr(PressureAltitude(least) - median(ref))
 }

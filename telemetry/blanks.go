@@ -17,9 +17,8 @@ func (p *parser) halfFix() int {
 	if p.lat < 0 {
 		return -1
 	}
-	l := p.log
-	n := len(l.Lat) - 1
-	switch la, lo := l.Lat[n], l.Lon[n]; {
+	r := p.log.Rows // the row just read, not yet counted
+	switch la, lo := p.cols[p.lat].vals[r], p.cols[p.lon].vals[r]; {
 	case la != la && lo == lo:
 		return p.lat
 	case lo != lo && la == la:
@@ -33,6 +32,11 @@ func (p *parser) halfFix() int {
 // place in Cells, nil, so the others keep their numbers).
 func (p *parser) finish() {
 	l := p.log
+	for _, c := range p.cols {
+		if c.dst != nil {
+			*c.dst = c.vals[:l.Rows]
+		}
+	}
 	gone := map[string]bool{}
 	for _, c := range p.cols {
 		if c.blank == 0 {

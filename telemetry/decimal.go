@@ -1,5 +1,7 @@
 package telemetry
 
+import "bytes"
+
 // pow10 holds the powers of ten that float64 represents exactly.
 var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 	1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
@@ -51,4 +53,74 @@ func decimalParts(b []byte) (mant uint64, frac int, neg, ok bool) {
 		return 0, 0, false, false
 	}
 	return mant, frac, neg, true
+}
+
+// cutField cuts the first field off a native row: up to the first comma
+// (native fields are never quoted, see the package documentation), more
+// reporting whether a comma followed. When the field is a plain decimal of
+// at most 15 digits it is converted on the way, to parseDecimal's result
+// (ok): one pass over the bytes where cutting and then converting take two.
+// Fifteen digits never reach 2^53, so the digit loops need no bound check.
+// Anything else (spaces, blanks, exponents, text, more digits) comes back
+// with ok false for the caller's full reading.
+func cutField(b []byte) (f []byte, v float64, ok, more bool) {
+	i, neg := 0, false
+	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
+		neg, i = b[0] == '-', 1
+	}
+	start := i
+	var mant uint64
+	for ; i < len(b); i++ {
+		d := b[i] - '0'
+		if d > 9 {
+			break
+		}
+		mant = mant*10 + uint64(d)
+	}
+	digits, frac := i-start, 0
+	if i < len(b) && b[i] == '.' {
+		i++
+		from := i
+		for ; i < len(b); i++ {
+			d := b[i] - '0'
+			if d > 9 {
+				break
+			}
+			mant = mant*10 + uint64(d)
+		}
+		frac = i - from
+		digits += frac
+	}
+	switch {
+	case digits > 15:
+		return slowField(b, i)
+	case i == len(b):
+		v, ok = decimalValue(mant, frac, neg, digits)
+		return b, v, ok, false
+	case b[i] == ',':
+		v, ok = decimalValue(mant, frac, neg, digits)
+		return b[:i], v, ok, true
+	}
+	return slowField(b, i)
+}
+
+// slowField cuts the field of b that is not a plain decimal from byte i on.
+func slowField(b []byte, i int) (f []byte, v float64, ok, more bool) {
+	j := bytes.IndexByte(b[i:], ',')
+	if j < 0 {
+		return b, 0, false, false
+	}
+	return b[:i+j], 0, false, true
+}
+
+// decimalValue is parseDecimal's result for the parts read.
+func decimalValue(mant uint64, frac int, neg bool, digits int) (float64, bool) {
+	if digits == 0 || frac >= len(pow10) {
+		return 0, false
+	}
+	v := float64(mant) / pow10[frac]
+	if neg {
+		v = -v
+	}
+	return v, true
 }

@@ -10,6 +10,7 @@ import (
 func (a *analysis) electrical() {
 	l, m, p := a.l, a.m, a.p
 	pw := make([]float64, l.Rows)
+	a.pw = pw
 	m.MinPackV = math.Inf(1)
 	m.PeakPowerW, m.PeakA = math.Inf(-1), math.Inf(-1)
 	for i := range pw {
@@ -83,10 +84,7 @@ func (a *analysis) meanPower() {
 	case a.runLo >= 0:
 		lo, hi, src = a.runLo, a.runHi, "run"
 	}
-	pw := make([]float64, hi-lo+1)
-	for i := range pw {
-		pw[i] = l.PackV[lo+i] * l.PackA[lo+i]
-	}
+	pw := a.pw[lo : hi+1]
 	m.MeanPowerW, m.MeanPowerSource = meanOver(l.T[lo:hi+1], pw, 0, len(pw)-1), src
 }
 

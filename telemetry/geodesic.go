@@ -114,13 +114,13 @@ func track(lat, lon []float64) (dist, maxRange float64, err error) {
 	if len(lat) == 0 {
 		return 0, 0, nil
 	}
-	pts := make([]ecef, len(lat))
-	for i := range lat {
-		pts[i] = WGS84.surface(lat[i], lon[i])
-	}
+	first := WGS84.surface(lat[0], lon[0])
+	prev := first
 	far, farChord := 0, 0.0
-	for i := 1; i < len(pts); i++ {
-		c := chord(pts[i-1], pts[i])
+	for i := 1; i < len(lat); i++ {
+		pt := WGS84.surface(lat[i], lon[i])
+		c := chord(prev, pt)
+		prev = pt
 		if c >= chordLimit {
 			s, _, err := Inverse(lat[i-1], lon[i-1], lat[i], lon[i])
 			if err != nil {
@@ -129,7 +129,7 @@ func track(lat, lon []float64) (dist, maxRange float64, err error) {
 			c = s
 		}
 		dist += c
-		if r := chord(pts[0], pts[i]); r > farChord {
+		if r := chord(first, pt); r > farChord {
 			far, farChord = i, r
 		}
 	}

@@ -294,6 +294,10 @@ func (p *mapParser) row(rec []byte) error {
 	if n := len(p.cols); len(fs) != n {
 		return p.refuseCol(min(len(fs), n-1), fmt.Sprintf("row has %d fields, the header has %d", len(fs), n))
 	}
+	r := l.Rows
+	if r == p.capRows {
+		p.growAll(max(2*r, 1024))
+	}
 	for k := range p.cols {
 		c := &p.cols[k]
 		if c.dst == nil {
@@ -308,12 +312,12 @@ func (p *mapParser) row(rec []byte) error {
 		if err != nil {
 			return err
 		}
-		*c.dst = append(*c.dst, v)
+		c.vals[r] = v
 	}
 	if k := p.halfFix(); k >= 0 {
 		return p.refuseCol(k, halfFixText)
 	}
-	t := l.T[len(l.T)-1]
+	t := p.cols[p.tcol].vals[r]
 	if l.Rows > 0 && !(t > p.prevT) {
 		return p.refuseCol(p.tcol, fmt.Sprintf("time %.40q (t_s %g) is not after the previous row's (t_s %g)", trimSpace(fs[p.tcol]), t, p.prevT))
 	}

@@ -13,17 +13,27 @@ import (
 // order overall. It removes gravity and slow manoeuvres.
 func highPass(t, x []float64, cutoffHz float64) []float64 {
 	rc := 1 / (2 * math.Pi * cutoffHz)
+	// Each step is y[i] = k/(k+1) dx + (k-1)/(k+1) y[i-1]: the divisions
+	// depend on the time step only, so they stay off the chain from one
+	// output to the next (dividing the sum instead puts one on every link).
 	y := make([]float64, len(x))
 	for i := 1; i < len(x); i++ {
 		k := 2 * rc / (t[i] - t[i-1])
-		y[i] = (k*(x[i]-x[i-1]) + (k-1)*y[i-1]) / (k + 1)
+		inv := 1 / (k + 1)
+		y[i] = k*inv*(x[i]-x[i-1]) + (k-1)*inv*y[i-1]
 	}
-	z := make([]float64, len(x))
+	// The backward pass overwrites the forward output in place: z[i] needs
+	// y[i] and y[i+1] but not z[i+1]'s input once z[i+1] is computed.
+	next := y[len(y)-1] // y[i+1] before it was overwritten
+	y[len(y)-1] = 0
 	for i := len(x) - 2; i >= 0; i-- {
 		k := 2 * rc / (t[i+1] - t[i])
-		z[i] = (k*(y[i]-y[i+1]) + (k-1)*z[i+1]) / (k + 1)
+		inv := 1 / (k + 1)
+		yi := y[i]
+		y[i] = k*inv*(yi-next) + (k-1)*inv*y[i+1]
+		next = yi
 	}
-	return z
+	return y
 }
 
 // piece is a stretch of consecutive readings of one axis.

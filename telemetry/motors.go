@@ -47,13 +47,13 @@ func (a *analysis) rotors() {
 		rpm := a.rpm[k]
 		revs, _, _ := integral(l.T, rpm)
 		mr := MotorRun{Position: r.Position, Revolutions: revs / 60, Bins: []RPMBin{}}
-		w := trapezoidWeights(l.T, rpm)
 		var on, onRPM, onRPM2 float64
 		for i, v := range rpm { // a blank has weight 0 and is not above idle
 			if v > a.idleRPM {
-				on += w[i]
-				onRPM += w[i] * v
-				onRPM2 += w[i] * v * v
+				w := trapezoidWeight(l.T, rpm, i)
+				on += w
+				onRPM += w * v
+				onRPM2 += w * v * v
 			}
 		}
 		mr.RunS = on
@@ -90,8 +90,8 @@ func (a *analysis) thrustConstant() {
 	n := 0
 	sq := make([]float64, l.Rows)
 	for _, r := range a.rpm {
-		for i, v := range r {
-			sq[i] = v * v
+		for i, v := range r[a.lo : a.hi+1] {
+			sq[a.lo+i] = v * v // only the span is read
 		}
 		if v := meanOver(l.T, sq, a.lo, a.hi); v == v {
 			sum += v
@@ -104,18 +104,17 @@ func (a *analysis) thrustConstant() {
 	m.ThrustK = ptr(p.MassKg * G0 / (sum * float64(len(l.RPM)) / float64(n)))
 }
 
-// trapezoidWeights are the per-sample weights of the trapezoidal rule over
-// the intervals whose both ends have a reading in y, so that
-// sum w_i y_i (blanks skipped) == integral(t, y).
-func trapezoidWeights(t, y []float64) []float64 {
-	w := make([]float64, len(t))
-	for i := 1; i < len(t); i++ {
-		if y[i] != y[i] || y[i-1] != y[i-1] {
-			continue
-		}
-		d := (t[i] - t[i-1]) / 2
-		w[i-1] += d
-		w[i] += d
+// trapezoidWeight is sample i's weight in the trapezoidal rule over the
+// intervals whose both ends have a reading in y (half of each such
+// interval it ends), so that sum w_i y_i (blanks skipped) == integral(t, y).
+// Summed from the left interval, as a running sum over the intervals would.
+func trapezoidWeight(t, y []float64, i int) float64 {
+	w := 0.0
+	if i > 0 && y[i] == y[i] && y[i-1] == y[i-1] {
+		w += (t[i] - t[i-1]) / 2
+	}
+	if i+1 < len(t) && y[i] == y[i] && y[i+1] == y[i+1] {
+		w += (t[i+1] - t[i]) / 2
 	}
 	return w
 }
@@ -147,8 +146,16 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 		if b <= 0 {
 			return // stopped: not turning time
 		}
-		if b == a {
-			i := min(int(a/width), n-1)
+		if i := int(a / width); b == a || (float64(i)*width <= a && b <= float64(i+1)*width && i < n) {
+			if b != a {
+				// Within one bin: the loop below's single step, without it.
+				d := dt * (b - a) / (b - a)
+				secs[i] += d
+				revs[i] += d * (a + b) / 2 / 60
+				sq[i] += d * (a*a + a*b + b*b) / 3
+				return
+			}
+			i = min(i, n-1)
 			secs[i] += dt
 			revs[i] += dt * a / 60
 			sq[i] += dt * a * a

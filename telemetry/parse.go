@@ -123,10 +123,15 @@ type column struct {
 	name   string     // as the header gives it
 	target string     // the service column it feeds; "" ignored
 	dst    *[]float64 // nil: ignored
-	lo, hi float64    // accepted range, inclusive
-	loOpen bool       // lo itself is refused
-	opt    bool       // optional: a blank cell is no reading (NaN), not a refusal
-	blank  int        // blank cells seen
+	// vals holds the column's values while parsing, at their row's index,
+	// every bound column's of the same length (parser.capRows); finish hands
+	// them to dst. Storing a float by index, not appending through dst,
+	// spares a slice-header store (with its write barrier) per value.
+	vals   []float64
+	lo, hi float64 // accepted range, inclusive
+	loOpen bool    // lo itself is refused
+	opt    bool    // optional: a blank cell is no reading (NaN), not a refusal
+	blank  int     // blank cells seen
 }
 
 type parser struct {
@@ -144,6 +149,8 @@ type parser struct {
 	prevT  float64
 	seen   map[string]bool
 	hint   int // input length when the reader tells it, to size the series once
+	// capRows is the length of every bound column's vals.
+	capRows int
 }
 
 // Parse reads a flight log (format in the package documentation). It streams
@@ -400,38 +407,50 @@ func (p *parser) row(b []byte) error {
 	if l.Rows >= p.lim.MaxRows {
 		return p.refuse(p.line, "", fmt.Sprintf("the log has more than the limit of %d data rows", p.lim.MaxRows))
 	}
+	r := l.Rows
+	if r == p.capRows {
+		p.growAll(max(2*r, 1024))
+	}
 	n := len(p.cols)
 	rest := b
 	for k := range n {
-		var f []byte
-		if k < n-1 {
-			i := bytes.IndexByte(rest, ',')
-			if i < 0 {
-				return p.refuse(p.line, p.cols[k+1].name,
-					fmt.Sprintf("row has %d fields, the header has %d", k+1, n))
-			}
-			f, rest = rest[:i], rest[i+1:]
-		} else {
-			if bytes.IndexByte(rest, ',') >= 0 {
-				return p.refuse(p.line, p.cols[k].name,
-					fmt.Sprintf("row has %d fields, the header has %d", n+bytes.Count(rest, []byte{','}), n))
-			}
-			f = rest
+		f, v, ok, more := cutField(rest)
+		if k < n-1 && !more {
+			return p.refuse(p.line, p.cols[k+1].name,
+				fmt.Sprintf("row has %d fields, the header has %d", k+1, n))
+		}
+		if k == n-1 && more {
+			return p.refuse(p.line, p.cols[k].name,
+				fmt.Sprintf("row has %d fields, the header has %d", n+1+bytes.Count(rest[len(f)+1:], []byte{','}), n))
+		}
+		if more {
+			rest = rest[len(f)+1:]
 		}
 		c := &p.cols[k]
 		if c.dst == nil {
 			continue
 		}
-		v, err := p.value(c, f)
+		// check's test inline for the common value; a value that fails it
+		// goes through check itself for the refusal.
+		if ok && v >= c.lo && v <= c.hi && (v != c.lo || !c.loOpen) && v <= maxMagnitude && v >= -maxMagnitude {
+			c.vals[r] = v
+			continue
+		}
+		var err error
+		if ok {
+			v, err = p.check(c, v)
+		} else {
+			v, err = p.value(c, f)
+		}
 		if err != nil {
 			return err
 		}
-		*c.dst = append(*c.dst, v)
+		c.vals[r] = v
 	}
 	if k := p.halfFix(); k >= 0 {
 		return p.refuse(p.line, p.cols[k].name, halfFixText)
 	}
-	t := l.T[len(l.T)-1]
+	t := p.cols[p.tcol].vals[r]
 	if l.Rows > 0 && !(t > p.prevT) {
 		return p.refuse(p.line, "t_s", fmt.Sprintf("time %g s is not after the previous row's %g s", t, p.prevT))
 	}
@@ -447,11 +466,22 @@ func (p *parser) row(b []byte) error {
 // the first row's length, sparing the copies of repeated growth.
 func (p *parser) reserve(rowLen int) {
 	est := min((p.hint-int(p.nbytes))/rowLen*11/10+16, p.lim.MaxRows)
-	for _, c := range p.cols {
+	if est > p.capRows {
+		p.growAll(est)
+	}
+}
+
+// growAll gives every bound column room for rows values, keeping those read.
+func (p *parser) growAll(rows int) {
+	for i := range p.cols {
+		c := &p.cols[i]
 		if c.dst != nil {
-			*c.dst = slices.Grow(*c.dst, est)
+			v := make([]float64, rows)
+			copy(v, c.vals[:p.log.Rows])
+			c.vals = v
 		}
 	}
+	p.capRows = rows
 }
 
 func (p *parser) value(c *column, f []byte) (float64, error) {

@@ -1,0 +1,78 @@
+package telemetry
+
+import (
+	"math"
+	"math/rand/v2"
+	"slices"
+	"testing"
+)
+
+// sortedMedian is the median by a full sort (slices.Sort, the reference).
+func sortedMedian(xs []float64) float64 {
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	n := len(s)
+	if n%2 == 1 {
+		return s[n/2]
+	}
+	return (s[n/2-1] + s[n/2]) / 2
+}
+
+// Selection gives the same order statistics as a full sort: every k of
+// small inputs, and the median of random, sorted, reversed, constant,
+// few-valued and NaN-holding inputs, with the input left unchanged.
+func TestMedianBySelectionMatchesSort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	for n := 1; n <= 40; n++ {
+		for range 20 {
+			xs := make([]float64, n)
+			for i := range xs {
+				xs[i] = float64(rng.IntN(7))
+			}
+			want := slices.Sorted(slices.Values(xs))
+			for k := range n {
+				s := slices.Clone(xs)
+				nthElement(s, k)
+				if s[k] != want[k] {
+					t.Fatalf("nthElement(%v, %d) = %v, the sort gives %v", xs, k, s[k], want[k])
+				}
+				for i := range s {
+					if (i < k && s[i] > s[k]) || (i > k && s[i] < s[k]) {
+						t.Fatalf("nthElement(%v, %d) leaves %v out of place: %v", xs, k, s[i], s)
+					}
+				}
+			}
+		}
+	}
+	inputs := map[string][]float64{}
+	for _, n := range []int{1, 2, 3, 1000, 1001, 90_000} {
+		r := make([]float64, n)
+		for i := range r {
+			r[i] = rng.NormFloat64()
+		}
+		inputs["random"] = r
+		inputs["sorted"] = slices.Sorted(slices.Values(r))
+		rev := slices.Clone(inputs["sorted"])
+		slices.Reverse(rev)
+		inputs["reversed"] = rev
+		inputs["constant"] = slices.Repeat([]float64{3.7}, n)
+		few := make([]float64, n)
+		for i := range few {
+			few[i] = float64(i % 3)
+		}
+		inputs["few"] = few
+		withNaN := slices.Clone(r)
+		withNaN[n/2] = math.NaN()
+		inputs["nan"] = withNaN
+		for name, xs := range inputs {
+			before := slices.Clone(xs)
+			got, want := median(xs), sortedMedian(xs)
+			if got != want && !(got != got && want != want) {
+				t.Fatalf("%s n=%d: median %v, the sort gives %v", name, n, got, want)
+			}
+			if !slices.EqualFunc(xs, before, func(a, b float64) bool { return a == b || (a != a && b != b) }) {
+				t.Fatalf("%s n=%d: median changed its input", name, n)
+			}
+		}
+	}
+}
