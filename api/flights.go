@@ -1,6 +1,7 @@
 package api
 
 import (
+	"crypto/sha256"
 	"errors"
 	"fmt"
 	"io"
@@ -134,6 +135,7 @@ func (s *Server) uploadFlight(c *gin.Context) {
 	}
 	var in uploadInput
 	var logData []byte
+	var logSum [sha256.Size]byte
 	var haveFlight, gz bool
 	var mapRef string
 	for {
@@ -175,10 +177,15 @@ func (s *Server) uploadFlight(c *gin.Context) {
 				s.fail(c, err)
 				return
 			}
-			if logData, err = io.ReadAll(io.LimitReader(part, s.limits.LogBytes+1)); err != nil {
+			// Read once, hashing on the way, into a buffer sized from the
+			// request's length (the part is within it).
+			h := sha256.New()
+			if logData, err = readSized(io.TeeReader(io.LimitReader(part, s.limits.LogBytes+1), h),
+				c.Request.ContentLength, s.limits.LogBytes+1); err != nil {
 				s.fail(c, uploadError(err, s.limits))
 				return
 			}
+			h.Sum(logSum[:0])
 			if int64(len(logData)) > s.limits.LogBytes {
 				s.fail(c, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "log",
 					Message: fmt.Sprintf("the log is over %d bytes", s.limits.LogBytes)})
@@ -201,7 +208,8 @@ func (s *Server) uploadFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData, Gzip: gz, ColumnMap: mapRef})
+	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData, LogSHA256: &logSum,
+		Gzip: gz, ColumnMap: mapRef})
 	if err != nil {
 		s.fail(c, err)
 		return
@@ -220,6 +228,37 @@ func (s *Server) uploadFlight(c *gin.Context) {
 	}
 	c.Header("Location", "/v1/flights/"+d.ID)
 	c.JSON(status, d)
+}
+
+// readSized reads r to its end into one buffer of about size bytes (the
+// request's Content-Length, an upper bound on a part's size; 0 or less when
+// unknown), at most max: sized once, so a large log is neither copied while
+// the buffer grows nor held twice.
+func readSized(r io.Reader, size, max int64) ([]byte, error) {
+	if size <= 0 || size > max {
+		size = min(max, 512<<10)
+	}
+	buf := make([]byte, 0, size)
+	var probe [512]byte
+	for {
+		var n int
+		var err error
+		if len(buf) < cap(buf) {
+			n, err = r.Read(buf[len(buf):cap(buf)])
+			buf = buf[:len(buf)+n]
+		} else {
+			// Full: look for more before growing, so that an exact size
+			// ends without a copy; more means the size was understated.
+			n, err = r.Read(probe[:])
+			buf = append(buf, probe[:n]...)
+		}
+		if err == io.EOF {
+			return buf, nil
+		}
+		if err != nil {
+			return buf, err
+		}
+	}
 }
 
 // pilotOf sets a flight's pilot to the key's person when none is given, and

@@ -5,11 +5,9 @@ package ingest
 
 import (
 	"bytes"
-	"compress/gzip"
 	"context"
 	"encoding/json"
 	"fmt"
-	"io"
 	"math"
 	"time"
 
@@ -51,6 +49,9 @@ type Ingester struct {
 type Request struct {
 	Flight fleet.Flight
 	Log    []byte
+	// LogSHA256, when set, is the SHA-256 of Log as uploaded, computed
+	// while it was read (the API does); nil: computed here.
+	LogSHA256 *[32]byte
 	// Gzip says the log is gzip-compressed (it is also taken as such when
 	// it starts with gzip's magic bytes).
 	Gzip bool
@@ -76,7 +77,15 @@ type Result struct {
 // Ingest parses, analyses and stores one log. The same log for the same
 // airframe returns the flight already recorded (Created false).
 func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
-	rd, err := ReadLog(req.Log, req.Gzip, in.Limits, in.Picker(ctx, req.ColumnMap))
+	// A plain log is stored gzip-compressed. Compressing costs more than
+	// parsing, so it runs beside the parse and analysis (on another core)
+	// rather than after them; a refused or already-recorded log stops it.
+	var packed *packing
+	if !req.Gzip && !bytes.HasPrefix(req.Log, gzipMagic) {
+		packed = startCompress(req.Log)
+		defer packed.stop()
+	}
+	rd, err := readLog(req.Log, req.Gzip, req.LogSHA256, in.Limits, in.Picker(ctx, req.ColumnMap))
 	if err != nil {
 		return Result{}, err
 	}
@@ -111,8 +120,8 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	f.Source, f.LogSHA256 = fleet.SourceLog, &sha
 	// The raw log is kept as uploaded: a gzip upload is stored as it came.
 	gz := req.Log
-	if !rd.Gzip {
-		if gz, err = compress(req.Log); err != nil {
+	if packed != nil {
+		if gz, err = packed.wait(); err != nil {
 			return Result{}, err
 		}
 	}
@@ -356,32 +365,6 @@ func packIDs(packs []fleet.FlightPack) []string {
 }
 
 func secs(s float64) time.Duration { return time.Duration(s * float64(time.Second)) }
-
-func compress(b []byte) ([]byte, error) {
-	var buf bytes.Buffer
-	w, err := gzip.NewWriterLevel(&buf, gzip.BestSpeed)
-	if err != nil {
-		return nil, err
-	}
-	if _, err := w.Write(b); err != nil {
-		return nil, err
-	}
-	if err := w.Close(); err != nil {
-		return nil, err
-	}
-	return buf.Bytes(), nil
-}
-
-// Decompress returns a stored log's text (a stored gzip upload may hold
-// several gzip members; all are read).
-func Decompress(gz []byte) ([]byte, error) {
-	r, err := gzip.NewReader(bytes.NewReader(gz))
-	if err != nil {
-		return nil, err
-	}
-	defer r.Close()
-	return io.ReadAll(r)
-}
 
 // Reanalyze recomputes stored logs' figures with the current model: those
 // analysed with an older model (AnalysisVersion), or every one when all is

@@ -40,6 +40,13 @@ var gzipMagic = []byte{0x1f, 0x8b}
 // that inflates past them is refused without inflating the rest; then read
 // through the map pick chooses.
 func ReadLog(raw []byte, gz bool, lim telemetry.Limits, pick Picker) (*Reading, error) {
+	return readLog(raw, gz, nil, lim, pick)
+}
+
+// readLog is ReadLog with the SHA-256 of raw when the caller computed it
+// while reading the upload (nil: computed here). A gzip upload's digest is
+// of its text, so a given one is not used for it.
+func readLog(raw []byte, gz bool, sum *[sha256.Size]byte, lim telemetry.Limits, pick Picker) (*Reading, error) {
 	gz = gz || bytes.HasPrefix(raw, gzipMagic)
 	if !gz {
 		m, err := pick(raw[:min(len(raw), telemetry.DetectBytes)])
@@ -50,7 +57,10 @@ func ReadLog(raw []byte, gz bool, lim telemetry.Limits, pick Picker) (*Reading, 
 		if err != nil {
 			return nil, err
 		}
-		sum := sha256.Sum256(raw)
+		if sum == nil {
+			d := sha256.Sum256(raw)
+			sum = &d
+		}
 		return &Reading{Log: l, Map: m, SHA256: hex.EncodeToString(sum[:]), Bytes: int64(len(raw))}, nil
 	}
 	return readGzip(bytes.NewReader(raw), lim, pick)
