@@ -404,7 +404,7 @@ func (in *Ingester) reanalyseOne(ctx context.Context, s store.StoredLog) error {
 	// Stored logs were accepted once; the limits may have shrunk since, which
 	// must not make history unreadable. A mapped log is re-read through the
 	// map's version it was first read through.
-	log, err := telemetry.ParseMapped(bytes.NewReader(raw), s.ColumnMap,
+	log, err := telemetry.ParseMappedBytes(raw, s.ColumnMap,
 		telemetry.Limits{MaxRows: math.MaxInt32, MaxBytes: int64(len(raw)) + 1})
 	if err != nil {
 		return err

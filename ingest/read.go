@@ -53,7 +53,7 @@ func readLog(raw []byte, gz bool, sum *[sha256.Size]byte, lim telemetry.Limits, 
 		if err != nil {
 			return nil, err
 		}
-		l, err := telemetry.ParseMapped(bytes.NewReader(raw), m, lim)
+		l, err := telemetry.ParseMappedBytes(raw, m, lim)
 		if err != nil {
 			return nil, err
 		}

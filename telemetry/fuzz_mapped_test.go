@@ -63,5 +63,7 @@ func FuzzParseMapped(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte, which uint8) {
 		l, err := ParseMapped(bytes.NewReader(data), maps[int(which)%len(maps)], lim)
 		checkParsed(t, data, l, err, lim)
+		lb, errb := ParseMappedBytes(data, maps[int(which)%len(maps)], lim)
+		sameParse(t, l, err, lb, errb)
 	})
 }

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -26,7 +27,50 @@ func FuzzParse(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte) {
 		l, err := Parse(bytes.NewReader(data), lim)
 		checkParsed(t, data, l, err, lim)
+		lb, errb := ParseBytes(data, lim)
+		sameParse(t, l, err, lb, errb)
 	})
+}
+
+// sameParse checks that reading a log in place (ParseBytes) gives what
+// reading it through a reader gives: the same log, or the same refusal.
+func sameParse(t *testing.T, l *Log, err error, lb *Log, errb error) {
+	t.Helper()
+	if (err == nil) != (errb == nil) || (err != nil && err.Error() != errb.Error()) {
+		t.Fatalf("through a reader: %v; in place: %v", err, errb)
+	}
+	if err == nil && !reflect.DeepEqual(nanFree(l), nanFree(lb)) {
+		t.Fatalf("the log read in place differs from the log read through a reader")
+	}
+}
+
+// nanFree is l with NaN (blank) replaced by a marker, so that DeepEqual can
+// compare series holding blanks.
+func nanFree(l *Log) *Log {
+	c := *l
+	fix := func(s []float64) []float64 {
+		if s == nil {
+			return nil
+		}
+		out := slices.Clone(s)
+		for i, v := range out {
+			if v != v {
+				out[i] = math.MaxFloat64
+			}
+		}
+		return out
+	}
+	c.T, c.PackV, c.PackA, c.Throttle, c.Baro, c.Temp = fix(c.T), fix(c.PackV), fix(c.PackA), fix(c.Throttle), fix(c.Baro), fix(c.Temp)
+	c.AccX, c.AccY, c.AccZ, c.Lat, c.Lon = fix(c.AccX), fix(c.AccY), fix(c.AccZ), fix(c.Lat), fix(c.Lon)
+	c.RPM = slices.Clone(c.RPM)
+	for i := range c.RPM {
+		c.RPM[i].RPM = fix(c.RPM[i].RPM)
+	}
+	c.Cells = slices.Clone(c.Cells)
+	for i := range c.Cells {
+		c.Cells[i] = fix(c.Cells[i])
+	}
+	return &c
 }
 
 // checkParsed checks a refusal is a located *fleet.Error within the input,

@@ -88,7 +88,19 @@ func ParseMapped(r io.Reader, m *fleet.ColumnMap, lim Limits) (*Log, error) {
 	if m == nil {
 		return Parse(r, lim)
 	}
-	p := &mapParser{parser: newParser(r, lim), m: m, sp: splitter{delim: m.Delimiter[0]}}
+	return parseMapped(newParser(r, lim), m)
+}
+
+// ParseMappedBytes is ParseMapped of a log held in memory, read in place.
+func ParseMappedBytes(b []byte, m *fleet.ColumnMap, lim Limits) (*Log, error) {
+	if m == nil {
+		return ParseBytes(b, lim)
+	}
+	return parseMapped(newBytesParser(b, lim), m)
+}
+
+func parseMapped(base *parser, m *fleet.ColumnMap) (*Log, error) {
+	p := &mapParser{parser: base, m: m, sp: splitter{delim: m.Delimiter[0]}}
 	switch m.Time.Unit {
 	case "s":
 		p.unit = 9

@@ -151,6 +151,9 @@ type parser struct {
 	hint   int // input length when the reader tells it, to size the series once
 	// capRows is the length of every bound column's vals.
 	capRows int
+	// mem: the log is src, in memory, read in place (br unused).
+	mem bool
+	src []byte
 }
 
 // Parse reads a flight log (format in the package documentation). It streams
@@ -158,7 +161,16 @@ type parser struct {
 // naming the physical line and the column at fault. Errors from r itself are
 // returned wrapped, as they are.
 func Parse(r io.Reader, lim Limits) (*Log, error) {
-	p := newParser(r, lim)
+	return newParser(r, lim).parse()
+}
+
+// ParseBytes is Parse of a log held in memory: its lines are read in place
+// rather than copied through a reader's buffer.
+func ParseBytes(b []byte, lim Limits) (*Log, error) {
+	return newBytesParser(b, lim).parse()
+}
+
+func (p *parser) parse() (*Log, error) {
 	for {
 		b, ok, err := p.next()
 		if err != nil {
@@ -217,8 +229,17 @@ func newParser(r io.Reader, lim Limits) *parser {
 	return p
 }
 
+// newBytesParser reads b in place.
+func newBytesParser(b []byte, lim Limits) *parser {
+	p := &parser{lim: lim.withDefaults(), log: &Log{}, seen: map[string]bool{}, mem: true, src: b, hint: len(b)}
+	return p
+}
+
 // next returns the next physical line without its line ending.
 func (p *parser) next() ([]byte, bool, error) {
+	if p.mem {
+		return p.nextInPlace()
+	}
 	b, err := p.br.ReadSlice('\n')
 	if errors.Is(err, bufio.ErrBufferFull) {
 		p.long = append(p.long[:0], b...)
@@ -233,6 +254,27 @@ func (p *parser) next() ([]byte, bool, error) {
 	}
 	if len(b) == 0 {
 		return nil, false, nil
+	}
+	p.line++
+	p.nbytes += int64(len(b))
+	if p.nbytes > p.lim.MaxBytes {
+		return nil, false, p.refuse(p.line, "", fmt.Sprintf("the log is larger than the limit of %d bytes", p.lim.MaxBytes))
+	}
+	b = bytes.TrimSuffix(b, []byte{'\n'})
+	b = bytes.TrimSuffix(b, []byte{'\r'})
+	return b, true, nil
+}
+
+// nextInPlace is next for a log in memory: the line is sliced from it.
+func (p *parser) nextInPlace() ([]byte, bool, error) {
+	if len(p.src) == 0 {
+		return nil, false, nil
+	}
+	b := p.src
+	if i := bytes.IndexByte(b, '\n'); i >= 0 {
+		b, p.src = b[:i+1], b[i+1:]
+	} else {
+		p.src = nil
 	}
 	p.line++
 	p.nbytes += int64(len(b))
