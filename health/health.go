@@ -8,7 +8,11 @@ package health
 import (
 	"context"
 	"fmt"
+	"runtime"
+	"sync/atomic"
 	"time"
+
+	"golang.org/x/sync/errgroup"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
@@ -49,6 +53,7 @@ type Service struct {
 	DB       *store.DB
 	Settings Settings
 	Now      func() time.Time
+	duty     *dutyMemo // set for one run over many motors (withDutyMemo)
 }
 
 // New returns a service with the default settings and the wall clock.
@@ -120,8 +125,9 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 	if err != nil {
 		return err
 	}
+	run := s.withDutyMemo()
 	for _, id := range parts {
-		if _, err := s.Part(ctx, id); err != nil {
+		if _, err := run.Part(ctx, id); err != nil {
 			return fmt.Errorf("part %s: %w", id, err)
 		}
 	}
@@ -130,7 +136,9 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 }
 
 // Recompute recomputes every motor, propeller and pack and every airframe's
-// trends; progress, when set, hears the count done.
+// trends; progress, when set, hears the count done. Each view is a few
+// independent round trips and some arithmetic, so a bounded pool of
+// workers (one per CPU) overlaps them; the first failure stops the rest.
 func (s *Service) Recompute(ctx context.Context, progress func(done, total int)) (int, error) {
 	parts, err := s.DB.HealthParts(ctx)
 	if err != nil {
@@ -141,26 +149,38 @@ func (s *Service) Recompute(ctx context.Context, progress func(done, total int))
 		return 0, err
 	}
 	total := len(parts) + len(airframes)
-	done := 0
+	var done atomic.Int64
+	tick := func() {
+		if n := done.Add(1); progress != nil && n%50 == 0 {
+			progress(int(n), total)
+		}
+	}
+	run := s.withDutyMemo()
+	g, gctx := errgroup.WithContext(ctx)
+	g.SetLimit(runtime.GOMAXPROCS(0))
 	for _, id := range parts {
-		if _, err := s.Part(ctx, id); err != nil {
-			return done, fmt.Errorf("part %s: %w", id, err)
-		}
-		done++
-		if progress != nil && done%50 == 0 {
-			progress(done, total)
-		}
+		g.Go(func() error {
+			if _, err := run.Part(gctx, id); err != nil {
+				return fmt.Errorf("part %s: %w", id, err)
+			}
+			tick()
+			return nil
+		})
 	}
 	for _, id := range airframes {
-		if _, err := s.Airframe(ctx, id); err != nil {
-			return done, fmt.Errorf("airframe %s: %w", id, err)
-		}
-		done++
+		g.Go(func() error {
+			if _, err := run.Airframe(gctx, id); err != nil {
+				return fmt.Errorf("airframe %s: %w", id, err)
+			}
+			tick()
+			return nil
+		})
 	}
-	if progress != nil {
-		progress(done, total)
+	err = g.Wait()
+	if progress != nil && err == nil {
+		progress(int(done.Load()), total)
 	}
-	return done, nil
+	return int(done.Load()), err
 }
 
 func ptr(v float64) *float64 { return &v }

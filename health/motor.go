@@ -139,7 +139,7 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 		// so a motor worked harder than its kind uses its life faster.
 		refRPM, refN, ok := 0.0, 0.0, false
 		if p.PartNumber != "" {
-			if refRPM, refN, ok, err = s.DB.ModelDuty(ctx, p.PartNumber); err != nil {
+			if refRPM, refN, ok, err = s.modelDuty(ctx, p.PartNumber); err != nil {
 				return err
 			}
 		}

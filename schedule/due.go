@@ -2,8 +2,6 @@ package schedule
 
 import (
 	"context"
-	"fmt"
-	"sync"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -54,58 +52,17 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 		return nil, nil, err
 	}
 	now := p.Now().UTC()
-	type task struct {
-		r *fleet.ServiceRule
-		s store.Subject
-	}
-	var tasks []task
+	var items []*fleet.DueItem
+	var subjects []string
 	for _, r := range rules {
 		if !r.Enabled {
 			continue
 		}
-		subs, err := p.DB.RuleSubjects(ctx, r, airframeID, packs)
+		its, subs, err := p.ruleItems(ctx, r, airframeID, packs, now)
 		if err != nil {
 			return nil, nil, err
 		}
-		for _, s := range subs {
-			tasks = append(tasks, task{r, s})
-		}
-	}
-	// Each item is a few independent reads: for a fleet, a few workers
-	// overlap their round trips (the pool has connections to spare); for one
-	// airframe's dozen items the hand-over costs more than it saves. Order
-	// is kept either way.
-	workers := 1
-	if len(tasks) > 50 {
-		workers = 4
-	}
-	items := make([]*fleet.DueItem, len(tasks))
-	errs := make([]error, len(tasks))
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				t := tasks[i]
-				if items[i], errs[i] = p.item(ctx, t.r, t.s, now); errs[i] != nil {
-					errs[i] = fmt.Errorf("rule %q on %s: %w", t.r.Name, t.s.Name, errs[i])
-				}
-			}
-		}()
-	}
-	for i := range tasks {
-		next <- i
-	}
-	close(next)
-	wg.Wait()
-	subjects := make([]string, len(tasks))
-	for i, t := range tasks {
-		if errs[i] != nil {
-			return nil, nil, errs[i]
-		}
-		subjects[i] = t.s.ID
+		items, subjects = append(items, its...), append(subjects, subs...)
 	}
 	// Open notices join the list, judged now like the rules.
 	notices, err := p.noticeDueItems(ctx, store.NoticeScope{AirframeID: airframeID, Packs: packs, At: now})

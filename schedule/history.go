@@ -21,6 +21,14 @@ type history struct {
 	done   []time.Time
 	uses   []store.Use
 	events []*fleet.Event
+	// summed, when set, is the use the database summed for judging now
+	// (store.RuleUsage); uses is then empty.
+	summed *usage
+	// view is the subject's stored health view (part_health, or an
+	// airframe's trends) read with the rest of its rule's subjects when
+	// viewRead; nil when none is stored.
+	view     json.RawMessage
+	viewRead bool
 }
 
 // load reads the history that judging r on s needs at moments from first
@@ -63,15 +71,6 @@ func lastDone(done []time.Time, start, at time.Time, past bool) (*time.Time, tim
 	return last, *last
 }
 
-// item applies one rule to one subject now.
-func (p *Programme) item(ctx context.Context, r *fleet.ServiceRule, s store.Subject, now time.Time) (*fleet.DueItem, error) {
-	h, err := p.load(ctx, r, s, now, nil)
-	if err != nil {
-		return nil, err
-	}
-	return p.evaluate(ctx, r, s, h, now, false)
-}
-
 // usage is what a subject went through since a moment, and over the
 // trailing window for rates.
 type usage struct {
@@ -83,6 +82,9 @@ type usage struct {
 // subject's utilisation whatever the rule's reset); as of a past moment
 // only flights before it.
 func (h *history) sum(since, recentFrom, at time.Time, past bool) usage {
+	if h.summed != nil {
+		return *h.summed
+	}
 	var u usage
 	for _, x := range h.uses {
 		if past && !x.At.Before(at) {
@@ -143,7 +145,7 @@ func (p *Programme) evaluate(ctx context.Context, r *fleet.ServiceRule, s store.
 	if r.Cycles != nil {
 		rated("cycles", u.cycles, *r.Cycles, u.recentCycles/days)
 	}
-	if err := p.healthLimits(ctx, r, s, since, at, past, add); err != nil {
+	if err := p.healthLimits(ctx, r, s, h, since, at, past, add); err != nil {
 		return nil, err
 	}
 	reasons := map[string]bool{}
@@ -222,13 +224,13 @@ func (l limit) usage(at time.Time) fleet.LimitUsage {
 // As of a past moment the pack and trend views are computed from the
 // records before it, and bearing life is read off the motor's cumulative
 // series up to it.
-func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s store.Subject, since, at time.Time, past bool,
-	add func(limit)) error {
+func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s store.Subject, h *history, since, at time.Time,
+	past bool, add func(limit)) error {
 	if r.BearingPct == nil && r.SoHBelowPct == nil && r.IRRisePct == nil && r.EfficiencyRisePct == nil && r.VibrationRisePct == nil {
 		return nil
 	}
 	if s.Kind == "airframe" {
-		tv, err := p.trendsView(ctx, s.ID, at, past)
+		tv, err := p.trendsView(ctx, s.ID, h, at, past)
 		if err != nil || tv == nil {
 			return err
 		}
@@ -240,7 +242,7 @@ func (p *Programme) healthLimits(ctx context.Context, r *fleet.ServiceRule, s st
 		}
 		return nil
 	}
-	v, err := p.partView(ctx, s, at, past)
+	v, err := p.partView(ctx, s, h, at, past)
 	if err != nil {
 		return err
 	}
@@ -304,11 +306,16 @@ func missingLimit(r *fleet.ServiceRule, k *health.PackView) bool {
 // or for a pack (a part subject of no airframe) as of a past moment,
 // computed from the records before it. A motor's stored series is read up
 // to the moment by the caller.
-func (p *Programme) partView(ctx context.Context, s store.Subject, at time.Time, past bool) (*health.View, error) {
+func (p *Programme) partView(ctx context.Context, s store.Subject, h *history, at time.Time, past bool) (*health.View, error) {
 	if past && p.Health != nil && s.AirframeID == nil {
 		return p.Health.PackAt(ctx, s.ID, at)
 	}
-	raw, err := p.DB.PartHealth(ctx, s.ID)
+	raw, err := h.view, error(nil)
+	if !h.viewRead {
+		raw, err = p.DB.PartHealth(ctx, s.ID)
+	} else if raw == nil {
+		err = fleet.Errorf(fleet.ENOTFOUND, "health not found")
+	}
 	if fleet.ErrorCode(err) == fleet.ENOTFOUND && p.Health != nil {
 		return p.Health.Part(ctx, s.ID)
 	} else if err != nil {
@@ -320,12 +327,15 @@ func (p *Programme) partView(ctx context.Context, s store.Subject, at time.Time,
 
 // trendsView is an airframe's trends view (nil before any logged flight),
 // as of a past moment computed from the flights before it.
-func (p *Programme) trendsView(ctx context.Context, airframeID string, at time.Time, past bool) (*health.TrendsView, error) {
+func (p *Programme) trendsView(ctx context.Context, airframeID string, h *history, at time.Time, past bool) (*health.TrendsView, error) {
 	if past && p.Health != nil {
 		return p.Health.AirframeAt(ctx, airframeID, at)
 	}
-	raw, err := p.DB.AirframeTrends(ctx, airframeID)
-	if fleet.ErrorCode(err) == fleet.ENOTFOUND {
+	raw, err := h.view, error(nil)
+	if !h.viewRead {
+		raw, err = p.DB.AirframeTrends(ctx, airframeID)
+	}
+	if fleet.ErrorCode(err) == fleet.ENOTFOUND || h.viewRead && raw == nil {
 		return nil, nil
 	} else if err != nil {
 		return nil, err

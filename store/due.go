@@ -27,35 +27,8 @@ type Subject struct {
 // Extra packs (e.g. the packs of a flight just ingested) join when the rule is
 // a pack rule.
 func (db *DB) RuleSubjects(ctx context.Context, r *fleet.ServiceRule, airframeID string, packs []string) ([]Subject, error) {
-	var rows pgx.Rows
-	var err error
-	switch {
-	case r.AppliesTo == "airframe":
-		rows, err = db.pool.Query(ctx, `
-			SELECT 'airframe', a.id, a.code, a.id, NULL::text, NULL::text,
-				coalesce((SELECT min(takeoff_at) FROM flights WHERE airframe_id = a.id), a.created_at)
-			FROM airframes a
-			WHERE a.retired_at IS NULL AND ($1::uuid IS NULL OR a.id = $1) AND ($2::text IS NULL OR a.model = $2)`,
-			nilIfEmpty(airframeID), r.Model)
-	case r.AppliesTo == string(fleet.KindPack):
-		rows, err = db.pool.Query(ctx, `
-			SELECT 'part', p.id, p.serial, NULL::uuid, nullif(p.part_number, ''), NULL::text,
-				coalesce((SELECT min(lower(airborne)) FROM flight_packs WHERE part_id = p.id), p.created_at)
-			FROM parts p
-			WHERE p.kind = 'pack' AND p.status <> 'retired' AND ($1::text IS NULL OR p.part_number = $1)
-			  AND ($2::uuid IS NULL OR p.id = ANY($3::uuid[])
-			       OR EXISTS (SELECT 1 FROM flight_packs fp JOIN flights f ON f.id = fp.flight_id
-			                  WHERE fp.part_id = p.id AND f.airframe_id = $2))`,
-			r.PartNumber, nilIfEmpty(airframeID), packs)
-	default:
-		rows, err = db.pool.Query(ctx, `
-			SELECT 'part', p.id, p.serial, f.airframe_id, nullif(p.part_number, ''), f.position,
-				(SELECT min(lower(during)) FROM fits WHERE part_id = p.id)
-			FROM parts p JOIN fits f ON f.part_id = p.id AND upper_inf(f.during)
-			WHERE p.kind = $1 AND p.status <> 'retired' AND ($2::text IS NULL OR p.part_number = $2)
-			  AND ($3::uuid IS NULL OR f.airframe_id = $3)`,
-			r.AppliesTo, r.PartNumber, nilIfEmpty(airframeID))
-	}
+	q, args := subjectsSQL(r, airframeID, packs)
+	rows, err := db.pool.Query(ctx, q, args...)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -63,6 +36,38 @@ func (db *DB) RuleSubjects(ctx context.Context, r *fleet.ServiceRule, airframeID
 		var s Subject
 		return s, row.Scan(&s.Kind, &s.ID, &s.Name, &s.AirframeID, &s.PartNumber, &s.Position, &s.Start)
 	})
+}
+
+// subjectsSQL is the query listing a rule's subjects (kind, id, name,
+// airframe_id, part_number, position, start) and its arguments ($1 to $3).
+func subjectsSQL(r *fleet.ServiceRule, airframeID string, packs []string) (string, []any) {
+	switch {
+	case r.AppliesTo == "airframe":
+		return `
+			SELECT 'airframe', a.id, a.code, a.id, NULL::text, NULL::text,
+				coalesce((SELECT min(takeoff_at) FROM flights WHERE airframe_id = a.id), a.created_at)
+			FROM airframes a
+			WHERE a.retired_at IS NULL AND ($1::uuid IS NULL OR a.id = $1) AND ($2::text IS NULL OR a.model = $2)`,
+			[]any{nilIfEmpty(airframeID), r.Model}
+	case r.AppliesTo == string(fleet.KindPack):
+		return `
+			SELECT 'part', p.id, p.serial, NULL::uuid, nullif(p.part_number, ''), NULL::text,
+				coalesce((SELECT min(lower(airborne)) FROM flight_packs WHERE part_id = p.id), p.created_at)
+			FROM parts p
+			WHERE p.kind = 'pack' AND p.status <> 'retired' AND ($1::text IS NULL OR p.part_number = $1)
+			  AND ($2::uuid IS NULL OR p.id = ANY($3::uuid[])
+			       OR EXISTS (SELECT 1 FROM flight_packs fp JOIN flights f ON f.id = fp.flight_id
+			                  WHERE fp.part_id = p.id AND f.airframe_id = $2))`,
+			[]any{r.PartNumber, nilIfEmpty(airframeID), packs}
+	default:
+		return `
+			SELECT 'part', p.id, p.serial, f.airframe_id, nullif(p.part_number, ''), f.position,
+				(SELECT min(lower(during)) FROM fits WHERE part_id = p.id)
+			FROM parts p JOIN fits f ON f.part_id = p.id AND upper_inf(f.during)
+			WHERE p.kind = $1 AND p.status <> 'retired' AND ($2::text IS NULL OR p.part_number = $2)
+			  AND ($3::uuid IS NULL OR f.airframe_id = $3)`,
+			[]any{r.AppliesTo, r.PartNumber, nilIfEmpty(airframeID)}
+	}
 }
 
 // WorkDone returns when work records against the rule covered the subject,

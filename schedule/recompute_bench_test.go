@@ -1,0 +1,90 @@
+package schedule_test
+
+import (
+	"context"
+	"os"
+	"runtime/pprof"
+	"slices"
+	"testing"
+	"time"
+
+	"github.com/rotorwright/rotorwright/health"
+	"github.com/rotorwright/rotorwright/schedule"
+)
+
+// BenchmarkScaleRecompute measures the whole-fleet recompute on the large
+// fleet (seedScale: 500 airframes, 20,000 parts, 250,000 flights): the due
+// list (RecomputeFleet) and every health view (health Recompute), next to
+// its floor in the same run, the set-based usage statement alone (RuleUsage
+// for every enabled rule over the whole fleet). Each iteration runs the
+// three in turn; medians are reported. With ROTORWRIGHT_RECOMPUTE_PROFILE=FILE
+// the recompute (not the seeding) is CPU-profiled into FILE.
+//
+//	go test -bench ScaleRecompute -run '^$' -benchtime 3x -timeout 30m ./schedule
+func BenchmarkScaleRecompute(b *testing.B) {
+	db, _ := seedScale(b)
+	ctx := context.Background()
+	prog := schedule.NewProgramme(db, health.New(db))
+	rules, err := db.Rules(ctx)
+	if err != nil {
+		b.Fatal(err)
+	}
+	// Warm both paths once (plans, caches, the first health views).
+	if _, err := prog.RecomputeFleet(ctx); err != nil {
+		b.Fatal(err)
+	}
+	if _, err := prog.Health.Recompute(ctx, nil); err != nil {
+		b.Fatal(err)
+	}
+	if f := os.Getenv("ROTORWRIGHT_RECOMPUTE_PROFILE"); f != "" {
+		out, err := os.Create(f)
+		if err != nil {
+			b.Fatal(err)
+		}
+		defer out.Close()
+		if err := pprof.StartCPUProfile(out); err != nil {
+			b.Fatal(err)
+		}
+		defer pprof.StopCPUProfile()
+	}
+	var floor, due, hs []time.Duration
+	items, views := 0, 0
+	for b.Loop() {
+		t0 := time.Now()
+		rows := 0
+		for _, r := range rules {
+			if !r.Enabled {
+				continue
+			}
+			u, err := db.RuleUsage(ctx, r, "", nil, time.Now().Add(-prog.Window))
+			if err != nil {
+				b.Fatal(err)
+			}
+			rows += len(u)
+		}
+		floor = append(floor, time.Since(t0))
+		if rows == 0 {
+			b.Fatal("the floor summed no subjects")
+		}
+		t0 = time.Now()
+		if items, err = prog.RecomputeFleet(ctx); err != nil {
+			b.Fatal(err)
+		}
+		due = append(due, time.Since(t0))
+		t0 = time.Now()
+		if views, err = prog.Health.Recompute(ctx, nil); err != nil {
+			b.Fatal(err)
+		}
+		hs = append(hs, time.Since(t0))
+	}
+	med := func(d []time.Duration) time.Duration { d = slices.Clone(d); slices.Sort(d); return d[len(d)/2] }
+	f, d, h := med(floor), med(due), med(hs)
+	b.ReportMetric(d.Seconds(), "due-s")
+	b.ReportMetric(h.Seconds(), "health-s")
+	b.ReportMetric((d + h).Seconds(), "recompute-s")
+	b.ReportMetric(f.Seconds(), "floor-s")
+	b.ReportMetric(float64(d)/float64(f), "due/floor")
+	b.Logf("%d airframes, %d parts, %d flights: median of %d runs: floor (set-based usage SQL) %s; due list %s (%d items, %.2fx floor); health %s (%d views); recompute total %s",
+		scaleAirframes, scaleParts, scaleFlights, len(due), f.Round(time.Millisecond), d.Round(time.Millisecond), items,
+		float64(d)/float64(f), h.Round(time.Millisecond), views, (d + h).Round(time.Millisecond))
+}
