@@ -17,12 +17,15 @@ import (
 // list (RecomputeFleet) and every health view (health Recompute), next to
 // its floor in the same run, the set-based usage statement alone (RuleUsage
 // for every enabled rule over the whole fleet). Each iteration runs the
-// three in turn; medians are reported. With ROTORWRIGHT_RECOMPUTE_PROFILE=FILE
+// three in turn; medians are reported. Then the work after one ingest on a
+// random airframe of it (500 flights each: the health refresh of the last
+// flight's parts and the airframe's due list) is timed 300 times, then its
+// floor, a one-row read of a random airframe, 300 times. With ROTORWRIGHT_RECOMPUTE_PROFILE=FILE
 // the recompute (not the seeding) is CPU-profiled into FILE.
 //
 //	go test -bench ScaleRecompute -run '^$' -benchtime 3x -timeout 30m ./schedule
 func BenchmarkScaleRecompute(b *testing.B) {
-	db, _ := seedScale(b)
+	db, ids := seedScale(b)
 	ctx := context.Background()
 	prog := schedule.NewProgramme(db, health.New(db))
 	rules, err := db.Rules(ctx)
@@ -77,6 +80,35 @@ func BenchmarkScaleRecompute(b *testing.B) {
 		}
 		hs = append(hs, time.Since(t0))
 	}
+	// After an ingest: each airframe's last flight stands for the new one.
+	last := map[string]string{}
+	rows, err := db.Pool().Query(ctx, `SELECT DISTINCT ON (airframe_id) airframe_id::text, id::text FROM flights
+		ORDER BY airframe_id, takeoff_at DESC`)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for rows.Next() {
+		var af, fl string
+		if err := rows.Scan(&af, &fl); err != nil {
+			b.Fatal(err)
+		}
+		last[af] = fl
+	}
+	rows.Close()
+	ingest50, ingest99 := latencies(b, ids, 300, func(id string) error {
+		if err := prog.Health.Refresh(ctx, last[id]); err != nil {
+			return err
+		}
+		_, err := prog.RecomputeAirframe(ctx, id, nil)
+		return err
+	})
+	read50, read99 := latencies(b, ids, 300, func(id string) error { _, err := db.Airframe(ctx, id); return err })
+	ms := func(d time.Duration) float64 { return float64(d.Microseconds()) / 1000 }
+	b.ReportMetric(ms(ingest50), "after-ingest-p50-ms")
+	b.ReportMetric(ms(ingest99), "after-ingest-p99-ms")
+	b.ReportMetric(ms(read50), "read-floor-p50-ms")
+	b.Logf("after an ingest (health refresh + airframe due list, 500 flights per airframe): p50 %s p99 %s; one-row read floor p50 %s p99 %s; p50 ratio %.0fx",
+		ingest50, ingest99, read50, read99, float64(ingest50)/float64(read50))
 	med := func(d []time.Duration) time.Duration { d = slices.Clone(d); slices.Sort(d); return d[len(d)/2] }
 	f, d, h := med(floor), med(due), med(hs)
 	b.ReportMetric(d.Seconds(), "due-s")
