@@ -8,11 +8,7 @@ package health
 import (
 	"context"
 	"fmt"
-	"runtime"
-	"sync/atomic"
 	"time"
-
-	"golang.org/x/sync/errgroup"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
@@ -133,54 +129,6 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 	}
 	_, err = s.Airframe(ctx, f.AirframeID)
 	return err
-}
-
-// Recompute recomputes every motor, propeller and pack and every airframe's
-// trends; progress, when set, hears the count done. Each view is a few
-// independent round trips and some arithmetic, so a bounded pool of
-// workers (one per CPU) overlaps them; the first failure stops the rest.
-func (s *Service) Recompute(ctx context.Context, progress func(done, total int)) (int, error) {
-	parts, err := s.DB.HealthParts(ctx)
-	if err != nil {
-		return 0, err
-	}
-	airframes, err := s.DB.AirframeIDs(ctx)
-	if err != nil {
-		return 0, err
-	}
-	total := len(parts) + len(airframes)
-	var done atomic.Int64
-	tick := func() {
-		if n := done.Add(1); progress != nil && n%50 == 0 {
-			progress(int(n), total)
-		}
-	}
-	run := s.withDutyMemo()
-	g, gctx := errgroup.WithContext(ctx)
-	g.SetLimit(runtime.GOMAXPROCS(0))
-	for _, id := range parts {
-		g.Go(func() error {
-			if _, err := run.Part(gctx, id); err != nil {
-				return fmt.Errorf("part %s: %w", id, err)
-			}
-			tick()
-			return nil
-		})
-	}
-	for _, id := range airframes {
-		g.Go(func() error {
-			if _, err := run.Airframe(gctx, id); err != nil {
-				return fmt.Errorf("airframe %s: %w", id, err)
-			}
-			tick()
-			return nil
-		})
-	}
-	err = g.Wait()
-	if progress != nil && err == nil {
-		progress(int(done.Load()), total)
-	}
-	return int(done.Load()), err
 }
 
 func ptr(v float64) *float64 { return &v }

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
 	"github.com/rotorwright/rotorwright/wear"
 )
 
@@ -65,10 +66,6 @@ type rpmBin struct {
 }
 
 func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *View) error {
-	var specs fleet.MotorSpecs
-	if err := json.Unmarshal(p.Specs, &specs); err != nil {
-		return err
-	}
 	since, err := s.DB.FirstFitted(ctx, p.ID)
 	if err != nil {
 		return err
@@ -77,6 +74,16 @@ func (s *Service) motor(ctx context.Context, p *fleet.Part, now time.Time, v *Vi
 	if err != nil {
 		return err
 	}
+	return s.motorFrom(ctx, p, since, runs, now, v)
+}
+
+// motorFrom computes a motor's view from its first fit and its runs since.
+func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time, runs []store.RotorRun, now time.Time, v *View) error {
+	var specs fleet.MotorSpecs
+	if err := json.Unmarshal(p.Specs, &specs); err != nil {
+		return err
+	}
+	var err error
 	m := wear.BearingModel{BalanceGrade_mm_s: s.Settings.BalanceGrade, RotorMassKg: s.Settings.RotorMassKg}
 	set := BearingSettings{Type: string(wear.Ball), BalanceGrade: m.BalanceGrade_mm_s, RotorMassKg: m.RotorMassKg, LifeFactor: 1, Count: 2}
 	if b := specs.Bearing; b != nil {

@@ -23,26 +23,15 @@ type PropView struct {
 }
 
 func (s *Service) propeller(ctx context.Context, p *fleet.Part, now time.Time, v *View) error {
-	pv := &PropView{Reasons: []wear.Reason{}, Series: []SeriesPoint{}}
-	v.Propeller = pv
 	fit, err := s.DB.CurrentFit(ctx, p.ID)
 	if fleet.ErrorCode(err) == fleet.ENOTFOUND {
-		v.Status = "not_fitted"
-		return nil
+		return s.propellerFrom(nil, nil, nil, now, v)
 	} else if err != nil {
 		return err
 	}
-	pv.FittedAt, pv.AirframeID, pv.Position = &fit.FittedAt, &fit.AirframeID, &fit.Position
 	runs, err := s.DB.RotorRuns(ctx, p.ID, fit.FittedAt)
 	if err != nil {
 		return err
-	}
-	var pr []wear.PropRun
-	total := 0.0
-	for _, r := range runs {
-		pr = append(pr, wear.PropRun{At: r.TakeoffAt, Seconds: r.RunS, Revolutions: r.Revolutions})
-		total += r.Revolutions
-		pv.Series = append(pv.Series, SeriesPoint{At: r.TakeoffAt, Value: total})
 	}
 	// A strike is recorded against the propeller, or against the airframe
 	// naming no part (then it concerns every propeller fitted).
@@ -58,6 +47,26 @@ func (s *Service) propeller(ctx context.Context, p *fleet.Part, now time.Time, v
 			}
 			strikes = append(strikes, e.At)
 		}
+	}
+	return s.propellerFrom(fit, runs, strikes, now, v)
+}
+
+// propellerFrom computes a propeller's view from its open fit (nil: not
+// fitted), its runs since fitted and the strikes that concern it.
+func (s *Service) propellerFrom(fit *fleet.Fit, runs []store.RotorRun, strikes []time.Time, now time.Time, v *View) error {
+	pv := &PropView{Reasons: []wear.Reason{}, Series: []SeriesPoint{}}
+	v.Propeller = pv
+	if fit == nil {
+		v.Status = "not_fitted"
+		return nil
+	}
+	pv.FittedAt, pv.AirframeID, pv.Position = &fit.FittedAt, &fit.AirframeID, &fit.Position
+	var pr []wear.PropRun
+	total := 0.0
+	for _, r := range runs {
+		pr = append(pr, wear.PropRun{At: r.TakeoffAt, Seconds: r.RunS, Revolutions: r.Revolutions})
+		total += r.Revolutions
+		pv.Series = append(pv.Series, SeriesPoint{At: r.TakeoffAt, Value: total})
 	}
 	st, err := wear.PropellerStatus(fit.FittedAt, pr, strikes, wear.PropLimits{}, now)
 	if err != nil {

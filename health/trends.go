@@ -52,6 +52,11 @@ func (s *Service) trends(ctx context.Context, airframeID string, now time.Time, 
 	if err != nil {
 		return nil, err
 	}
+	return s.trendsFrom(airframeID, pts, now), nil
+}
+
+// trendsFrom computes an airframe's trends from its last logged flights.
+func (s *Service) trendsFrom(airframeID string, pts []store.TrendPoint, now time.Time) *TrendsView {
 	tv := &TrendsView{AirframeID: airframeID, ComputedAt: now, Flights: len(pts), LimitPct: s.Settings.TrendLimitPct,
 		Series: pts}
 	if tv.Series == nil {
@@ -69,7 +74,7 @@ func (s *Service) trends(ctx context.Context, airframeID string, now time.Time, 
 	tv.EfficiencyIndex = s.trend(eff)
 	tv.Vibration = s.trend(vib)
 	tv.Flagged = (tv.EfficiencyIndex != nil && tv.EfficiencyIndex.Flag) || (tv.Vibration != nil && tv.Vibration.Flag)
-	return tv, nil
+	return tv
 }
 
 // minTrendFlights is the fewest flights a trend is fitted to (a robust slope

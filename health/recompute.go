@@ -1,0 +1,180 @@
+package health
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"runtime"
+	"slices"
+	"sync/atomic"
+	"time"
+
+	"golang.org/x/sync/errgroup"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// recomputeBatch is how many parts or airframes one worker reads at once:
+// enough to turn thousands of per-part round trips into a few hundred
+// statements, few enough that a batch's logged runs stay small in memory.
+const recomputeBatch = 64
+
+// Recompute recomputes every motor, propeller and pack and every airframe's
+// trends; progress, when set, hears the count done. Batches of parts are
+// read with one query per kind of record (parts, fits, rotor runs; packs
+// still read their own flights and checks), computed as Part computes them
+// and stored with one statement per batch, on a bounded pool of workers
+// (one per CPU) so one batch's reads overlap another's arithmetic; the
+// first failure stops the rest.
+func (s *Service) Recompute(ctx context.Context, progress func(done, total int)) (int, error) {
+	parts, err := s.DB.HealthParts(ctx)
+	if err != nil {
+		return 0, err
+	}
+	airframes, err := s.DB.AirframeIDs(ctx)
+	if err != nil {
+		return 0, err
+	}
+	// Every propeller strike, read once for all propellers.
+	strikes, err := s.DB.ScopeEvents(ctx, []string{"prop_strike"}, "", nil)
+	if err != nil {
+		return 0, err
+	}
+	total := len(parts) + len(airframes)
+	var done atomic.Int64
+	count := func(n int) {
+		if d := done.Add(int64(n)); progress != nil && int(d)/50 > (int(d)-n)/50 {
+			progress(int(d), total)
+		}
+	}
+	run := s.withDutyMemo()
+	g, gctx := errgroup.WithContext(ctx)
+	g.SetLimit(runtime.GOMAXPROCS(0))
+	for chunk := range slices.Chunk(parts, recomputeBatch) {
+		g.Go(func() error {
+			n, err := run.partBatch(gctx, chunk, strikes)
+			count(n)
+			return err
+		})
+	}
+	for chunk := range slices.Chunk(airframes, recomputeBatch) {
+		g.Go(func() error {
+			err := run.trendsBatch(gctx, chunk)
+			if err == nil {
+				count(len(chunk))
+			}
+			return err
+		})
+	}
+	err = g.Wait()
+	if progress != nil && err == nil {
+		progress(int(done.Load()), total)
+	}
+	return int(done.Load()), err
+}
+
+// partBatch computes and stores the views of a batch of parts; it returns
+// how many it stored.
+func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.Event) (int, error) {
+	parts, err := s.DB.PartsByID(ctx, ids)
+	if err != nil {
+		return 0, err
+	}
+	fits, err := s.DB.FitsOf(ctx, ids)
+	if err != nil {
+		return 0, err
+	}
+	// As FirstFitted and CurrentFit: the earliest fit's start, the open fit.
+	first, open := map[string]time.Time{}, map[string]*fleet.Fit{}
+	for _, f := range fits {
+		if t, ok := first[f.PartID]; !ok || f.FittedAt.Before(t) {
+			first[f.PartID] = f.FittedAt
+		}
+		if f.RemovedAt == nil {
+			open[f.PartID] = f
+		}
+	}
+	// Rotor runs: a motor's since its first fit, a fitted propeller's
+	// since its open fit.
+	var runIDs []string
+	var runSince []time.Time
+	for _, p := range parts {
+		switch {
+		case p.Kind == fleet.KindMotor:
+			runIDs, runSince = append(runIDs, p.ID), append(runSince, first[p.ID])
+		case p.Kind == fleet.KindPropeller && open[p.ID] != nil:
+			runIDs, runSince = append(runIDs, p.ID), append(runSince, open[p.ID].FittedAt)
+		}
+	}
+	runs, err := s.DB.RotorRunsOf(ctx, runIDs, runSince)
+	if err != nil {
+		return 0, err
+	}
+	now := s.Now().UTC()
+	rows := make([]store.HealthRow, 0, len(parts))
+	for _, p := range parts {
+		v := &View{PartID: p.ID, Kind: p.Kind, Serial: p.Serial, ComputedAt: now, Notes: []string{}}
+		switch p.Kind {
+		case fleet.KindMotor:
+			err = s.motorFrom(ctx, p, first[p.ID], runs[p.ID], now, v)
+		case fleet.KindPropeller:
+			err = s.propellerFrom(open[p.ID], runs[p.ID], propStrikes(p.ID, open[p.ID], strikes), now, v)
+		case fleet.KindPack:
+			err = s.pack(ctx, p, now, nil, v)
+		default:
+			continue
+		}
+		if err != nil {
+			return 0, fmt.Errorf("part %s: %w", p.ID, err)
+		}
+		rows = append(rows, store.HealthRow{ID: p.ID, Status: v.Status, View: v})
+	}
+	return len(rows), s.DB.SavePartHealths(ctx, rows, now)
+}
+
+// propStrikes picks the strikes that concern a fitted propeller from every
+// strike, as propeller reads them: those naming it, then those on its
+// airframe naming no part, each list in id order and cut at a page as the
+// per-part read is.
+func propStrikes(partID string, fit *fleet.Fit, all []*fleet.Event) []time.Time {
+	if fit == nil {
+		return nil
+	}
+	var mine, onAirframe []*fleet.Event
+	for _, e := range all {
+		if e.PartID != nil && *e.PartID == partID {
+			mine = append(mine, e)
+		}
+		if e.AirframeID != nil && *e.AirframeID == fit.AirframeID {
+			onAirframe = append(onAirframe, e)
+		}
+	}
+	var out []time.Time
+	for i, list := range [][]*fleet.Event{mine, onAirframe} {
+		// uuids order bytewise in the database, as their lower-case text does.
+		slices.SortFunc(list, func(a, b *fleet.Event) int { return cmp.Compare(a.ID, b.ID) })
+		for _, e := range list[:min(len(list), store.MaxPageSize)] {
+			if i == 1 && e.PartID != nil {
+				continue // names a part: counted above if it is this one
+			}
+			out = append(out, e.At)
+		}
+	}
+	return out
+}
+
+// trendsBatch computes and stores the trends of a batch of airframes.
+func (s *Service) trendsBatch(ctx context.Context, ids []string) error {
+	pts, err := s.DB.AirframeTrendPointsOf(ctx, ids, s.Settings.TrendFlights)
+	if err != nil {
+		return err
+	}
+	now := s.Now().UTC()
+	rows := make([]store.HealthRow, len(ids))
+	for i, id := range ids {
+		tv := s.trendsFrom(id, pts[id], now)
+		rows[i] = store.HealthRow{ID: id, Flagged: tv.Flagged, View: tv}
+	}
+	return s.DB.SaveAirframeTrendsMany(ctx, rows, now)
+}

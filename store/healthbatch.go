@@ -1,0 +1,148 @@
+package store
+
+import (
+	"context"
+	"encoding/json"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"github.com/rotorwright/rotorwright/fleet"
+)
+
+// Reads and writes for recomputing many health views at once: a fleet
+// recompute reads each kind of record for a batch of parts in one query
+// instead of one query per part.
+
+// PartsByID returns the parts with the given ids (missing ones left out).
+func (db *DB) PartsByID(ctx context.Context, ids []string) ([]*fleet.Part, error) {
+	rows, err := db.pool.Query(ctx, `SELECT `+partCols+` FROM parts WHERE id = ANY($1::uuid[])`, ids)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanPart)
+}
+
+// FitsOf returns every fit, open or ended, of the given parts.
+func (db *DB) FitsOf(ctx context.Context, partIDs []string) ([]*fleet.Fit, error) {
+	rows, err := db.pool.Query(ctx, `SELECT `+fitCols+` FROM fits WHERE part_id = ANY($1::uuid[])`, partIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (*fleet.Fit, error) { return scanFit(r) })
+}
+
+// RotorRunsOf is RotorRuns for many parts in one query: for each part, the
+// runs of the position it was fitted at on every flight while fitted, from
+// its since on, by part, oldest first.
+func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time) (map[string][]RotorRun, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT f.part_id::text, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
+			mr.thrust_mean_n, mr.bins
+		FROM unnest($1::uuid[], $2::timestamptz[]) AS q (part_id, since)
+		JOIN fits f ON f.part_id = q.part_id
+		JOIN flights fl ON `+fitAtTakeoff+`
+		JOIN motor_runs mr ON mr.flight_id = fl.id AND mr.position = f.position
+		WHERE fl.takeoff_at >= q.since
+		ORDER BY f.part_id, fl.takeoff_at`, partIDs, since)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	out := map[string][]RotorRun{}
+	for rows.Next() {
+		var id string
+		var m RotorRun
+		if err := rows.Scan(&id, &m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
+			&m.MeanRPM, &m.ThrustMeanN, &m.Bins); err != nil {
+			return nil, translate(err)
+		}
+		out[id] = append(out[id], m)
+	}
+	return out, translate(rows.Err())
+}
+
+// AirframeTrendPointsOf is AirframeTrendPoints (now) for many airframes in
+// one query: the last n logged flights of each, oldest first.
+func (db *DB) AirframeTrendPointsOf(ctx context.Context, airframeIDs []string, n int) (map[string][]TrendPoint, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT a.id::text, last.id, last.takeoff_at, last.efficiency_index, last.vibration_rms
+		FROM unnest($1::uuid[]) AS a (id)
+		CROSS JOIN LATERAL (
+			SELECT f.id, f.takeoff_at, m.efficiency_index, m.vibration_rms
+			FROM flights f JOIN flight_metrics m ON m.flight_id = f.id
+			WHERE f.airframe_id = a.id
+			ORDER BY f.takeoff_at DESC LIMIT $2) last
+		ORDER BY a.id, last.takeoff_at`, airframeIDs, n)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	out := map[string][]TrendPoint{}
+	for rows.Next() {
+		var id string
+		var p TrendPoint
+		if err := rows.Scan(&id, &p.FlightID, &p.TakeoffAt, &p.EfficiencyIndex, &p.VibrationRMS); err != nil {
+			return nil, translate(err)
+		}
+		out[id] = append(out[id], p)
+	}
+	return out, translate(rows.Err())
+}
+
+// HealthRow is one computed view to store: a part's health (Flagged unused)
+// or an airframe's trends (Status unused).
+type HealthRow struct {
+	ID      string
+	Status  string
+	Flagged bool
+	View    any
+}
+
+// SavePartHealths stores many parts' health views in one statement, as
+// SavePartHealth does one.
+func (db *DB) SavePartHealths(ctx context.Context, rows []HealthRow, at time.Time) error {
+	ids, statuses, views, err := healthArrays(rows)
+	if err != nil {
+		return err
+	}
+	_, err = db.pool.Exec(ctx, `
+		INSERT INTO part_health (part_id, computed_at, status, view)
+		SELECT id, $4, status, view::jsonb FROM unnest($1::uuid[], $2::text[], $3::text[]) AS v (id, status, view)
+		ON CONFLICT (part_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, status = EXCLUDED.status, view = EXCLUDED.view`,
+		ids, statuses, views, at)
+	return translate(err)
+}
+
+// SaveAirframeTrendsMany stores many airframes' trends in one statement, as
+// SaveAirframeTrends does one.
+func (db *DB) SaveAirframeTrendsMany(ctx context.Context, rows []HealthRow, at time.Time) error {
+	ids, _, views, err := healthArrays(rows)
+	if err != nil {
+		return err
+	}
+	flagged := make([]bool, len(rows))
+	for i, r := range rows {
+		flagged[i] = r.Flagged
+	}
+	_, err = db.pool.Exec(ctx, `
+		INSERT INTO airframe_trends (airframe_id, computed_at, flagged, view)
+		SELECT id, $4, flagged, view::jsonb FROM unnest($1::uuid[], $2::boolean[], $3::text[]) AS v (id, flagged, view)
+		ON CONFLICT (airframe_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, flagged = EXCLUDED.flagged, view = EXCLUDED.view`,
+		ids, flagged, views, at)
+	return translate(err)
+}
+
+// healthArrays marshals the views; they travel as text and are cast to
+// jsonb in the statement.
+func healthArrays(rows []HealthRow) (ids, statuses, views []string, err error) {
+	ids, statuses, views = make([]string, len(rows)), make([]string, len(rows)), make([]string, len(rows))
+	for i, r := range rows {
+		b, err := json.Marshal(r.View)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		ids[i], statuses[i], views[i] = r.ID, r.Status, string(b)
+	}
+	return ids, statuses, views, nil
+}
