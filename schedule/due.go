@@ -2,7 +2,10 @@ package schedule
 
 import (
 	"context"
+	"runtime"
 	"time"
+
+	"golang.org/x/sync/errgroup"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
@@ -52,25 +55,41 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 		return nil, nil, err
 	}
 	now := p.Now().UTC()
-	var items []*fleet.DueItem
-	var subjects []string
-	for _, r := range rules {
+	// Each rule is a few set-based statements; the rules and the notices
+	// run side by side on a bounded pool (one per CPU), so one statement's
+	// wait overlaps another's work. Order is kept: rules in name order,
+	// then notices.
+	type result struct {
+		items    []*fleet.DueItem
+		subjects []string
+	}
+	out := make([]result, len(rules)+1)
+	g, gctx := errgroup.WithContext(ctx)
+	g.SetLimit(runtime.GOMAXPROCS(0))
+	for i, r := range rules {
 		if !r.Enabled {
 			continue
 		}
-		its, subs, err := p.ruleItems(ctx, r, airframeID, packs, now)
-		if err != nil {
-			return nil, nil, err
-		}
-		items, subjects = append(items, its...), append(subjects, subs...)
+		g.Go(func() (err error) {
+			out[i].items, out[i].subjects, err = p.ruleItems(gctx, r, airframeID, packs, now)
+			return err
+		})
 	}
-	// Open notices join the list, judged now like the rules.
-	notices, err := p.noticeDueItems(ctx, store.NoticeScope{AirframeID: airframeID, Packs: packs, At: now})
-	if err != nil {
+	g.Go(func() error {
+		// Open notices join the list, judged now like the rules.
+		notices, err := p.noticeDueItems(gctx, store.NoticeScope{AirframeID: airframeID, Packs: packs, At: now})
+		for _, it := range notices {
+			out[len(rules)].items, out[len(rules)].subjects = append(out[len(rules)].items, it), append(out[len(rules)].subjects, it.SubjectID)
+		}
+		return err
+	})
+	if err := g.Wait(); err != nil {
 		return nil, nil, err
 	}
-	for _, it := range notices {
-		items, subjects = append(items, it), append(subjects, it.SubjectID)
+	var items []*fleet.DueItem
+	var subjects []string
+	for _, r := range out {
+		items, subjects = append(items, r.items...), append(subjects, r.subjects...)
 	}
 	return items, subjects, nil
 }
