@@ -121,11 +121,10 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 	if err != nil {
 		return err
 	}
-	run := s.withDutyMemo()
-	for _, id := range parts {
-		if _, err := run.Part(ctx, id); err != nil {
-			return fmt.Errorf("part %s: %w", id, err)
-		}
+	// The parts as a batch (a few reads for all of them, one write), as
+	// Part would compute each.
+	if _, err := s.withDutyMemo().partBatch(ctx, parts, nil); err != nil {
+		return err
 	}
 	_, err = s.Airframe(ctx, f.AirframeID)
 	return err

@@ -41,6 +41,9 @@ func (s *Service) Recompute(ctx context.Context, progress func(done, total int))
 	if err != nil {
 		return 0, err
 	}
+	if strikes == nil {
+		strikes = []*fleet.Event{} // none: read, so the batches read none again
+	}
 	total := len(parts) + len(airframes)
 	var done atomic.Int64
 	count := func(n int) {
@@ -75,8 +78,12 @@ func (s *Service) Recompute(ctx context.Context, progress func(done, total int))
 }
 
 // partBatch computes and stores the views of a batch of parts; it returns
-// how many it stored.
+// how many it stored. strikes are the propeller strikes to pick from (every
+// one, for the fleet); nil reads those that can concern the batch.
 func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.Event) (int, error) {
+	if len(ids) == 0 {
+		return 0, nil
+	}
 	parts, err := s.DB.PartsByID(ctx, ids)
 	if err != nil {
 		return 0, err
@@ -110,6 +117,19 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	runs, err := s.DB.RotorRunsOf(ctx, runIDs, runSince)
 	if err != nil {
 		return 0, err
+	}
+	if strikes == nil {
+		// Those naming a part of the batch or on the airframe a propeller
+		// is fitted to now.
+		var airframes []string
+		for _, p := range parts {
+			if f := open[p.ID]; p.Kind == fleet.KindPropeller && f != nil {
+				airframes = append(airframes, f.AirframeID)
+			}
+		}
+		if strikes, err = s.DB.StrikesOf(ctx, airframes, ids); err != nil {
+			return 0, err
+		}
 	}
 	now := s.Now().UTC()
 	rows := make([]store.HealthRow, 0, len(parts))

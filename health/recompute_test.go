@@ -120,6 +120,26 @@ func TestRecomputeMatchesOneByOne(t *testing.T) {
 			t.Errorf("airframe %s: batch trends\n%s\none by one\n%s", id, batch[id], raw)
 		}
 	}
+	// The refresh after an ingest reads a flight's parts as one batch too
+	// (its strikes read for the batch): again the same views.
+	for _, id := range airframes {
+		flights, _, err := r.db.Flights(r.ctx, store.FlightFilter{AirframeID: id}, store.Page{Limit: 1})
+		if err != nil || len(flights) != 1 {
+			t.Fatalf("flights of %s: %d, %v", id, len(flights), err)
+		}
+		if err := r.hs.Refresh(r.ctx, flights[0].ID); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, id := range parts {
+		raw, err := r.db.PartHealth(r.ctx, id)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if string(raw) != batch[id] {
+			t.Errorf("part %s after a refresh:\n%s\nwant\n%s", id, raw, batch[id])
+		}
+	}
 	// The fixture reaches the cases named above.
 	if kinds["propeller/not_fitted"] != 1 || kinds["propeller/replace"] < 2 || kinds["pack/"] > 0 {
 		t.Errorf("views by kind and status: %v", kinds)

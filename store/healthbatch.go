@@ -62,6 +62,18 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 	return out, translate(rows.Err())
 }
 
+// StrikesOf returns the propeller strikes on the airframes or naming the
+// parts.
+func (db *DB) StrikesOf(ctx context.Context, airframeIDs, partIDs []string) ([]*fleet.Event, error) {
+	rows, err := db.pool.Query(ctx, `
+		SELECT `+eventCols+` FROM events
+		WHERE kind = 'prop_strike' AND (airframe_id = ANY($1::uuid[]) OR part_id = ANY($2::uuid[]))`, airframeIDs, partIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanEvent)
+}
+
 // AirframeTrendPointsOf is AirframeTrendPoints (now) for many airframes in
 // one query: the last n logged flights of each, oldest first.
 func (db *DB) AirframeTrendPointsOf(ctx context.Context, airframeIDs []string, n int) (map[string][]TrendPoint, error) {

@@ -1,6 +1,8 @@
 package wear
 
 import (
+	"math/rand/v2"
+	"slices"
 	"testing"
 )
 
@@ -66,5 +68,37 @@ func TestTrend(t *testing.T) {
 	}
 	if _, err := Trend([]float64{1, 2}, 0, 5); err == nil {
 		t.Error("two flights accepted")
+	}
+}
+
+// median by selection gives exactly what sorting and taking the middle (the
+// mean of the middle pair for even length) gives, on random values with
+// many ties, odd and even lengths, already sorted and reversed input.
+func TestMedianMatchesSort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 11))
+	for trial := 0; trial < 2000; trial++ {
+		n := 1 + rng.IntN(60)
+		v := make([]float64, n)
+		for i := range v {
+			switch trial % 4 {
+			case 0:
+				v[i] = rng.NormFloat64()
+			case 1:
+				v[i] = float64(rng.IntN(4)) // ties
+			case 2:
+				v[i] = float64(i) // sorted
+			default:
+				v[i] = float64(n - i) // reversed
+			}
+		}
+		ref := slices.Clone(v)
+		slices.Sort(ref)
+		want := ref[n/2]
+		if n%2 == 0 {
+			want = (ref[n/2-1] + ref[n/2]) / 2
+		}
+		if got := median(slices.Clone(v)); got != want {
+			t.Fatalf("median of %v = %v, sorted middle %v", v, got, want)
+		}
 	}
 }
