@@ -3,6 +3,8 @@ package store
 import (
 	"context"
 	"encoding/json"
+	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -35,16 +37,72 @@ func (db *DB) FitmentJSON(ctx context.Context, airframeID string, at time.Time) 
 	if err != nil {
 		return nil, nil, translateNotFound(err, "airframe")
 	}
-	l := &fleet.Layout{}
-	if err := json.Unmarshal(positions, &l.Positions); err != nil {
+	labels, err := layoutLabels(positions)
+	if err != nil {
 		return nil, nil, err
 	}
-	fitted := make([]fleet.FittedPart, len(kinds))
-	for i := range kinds {
-		fitted[i] = fleet.FittedPart{Kind: fleet.PartKind(kinds[i]), Position: places[i]}
+	// The empty places as EmptyPlaces lists them: positions in layout
+	// order, motor before propeller at each.
+	empty = append(make([]byte, 0, 256), '[')
+	for _, l := range labels {
+		for _, k := range []fleet.PartKind{fleet.KindMotor, fleet.KindPropeller} {
+			if fittedAt(kinds, places, string(k), l.label) {
+				continue
+			}
+			if len(empty) > 1 {
+				empty = append(empty, ',')
+			}
+			empty = append(empty, `{"position":`...)
+			empty = append(empty, l.json...)
+			empty = append(empty, `,"kind":"`...)
+			empty = append(empty, k...)
+			empty = append(empty, `"}`...)
+		}
 	}
-	if empty, err = json.Marshal(EmptyPlaces(l, fitted)); err != nil {
-		return nil, nil, err
-	}
-	return parts, empty, nil
+	return parts, append(empty, ']'), nil
 }
+
+func fittedAt(kinds, places []string, kind, place string) bool {
+	for i := range kinds {
+		if kinds[i] == kind && places[i] == place {
+			return true
+		}
+	}
+	return false
+}
+
+// label is a layout position's label and its JSON string.
+type label struct {
+	label string
+	json  []byte
+}
+
+// labelCache maps a layout's positions, as stored (JSON), to their labels:
+// keyed by the content itself, so an entry never goes stale.
+var labelCache sync.Map // string -> []label
+
+func layoutLabels(positions []byte) ([]label, error) {
+	if v, ok := labelCache.Load(string(positions)); ok {
+		return v.([]label), nil
+	}
+	var ps []fleet.Position
+	if err := json.Unmarshal(positions, &ps); err != nil {
+		return nil, err
+	}
+	out := make([]label, len(ps))
+	for i, p := range ps {
+		js, err := json.Marshal(p.Label)
+		if err != nil {
+			return nil, err
+		}
+		out[i] = label{label: p.Label, json: js}
+	}
+	if labelCacheSize.Add(1) <= maxLabelCache { // layouts are few; never grows without bound
+		labelCache.Store(string(positions), out)
+	}
+	return out, nil
+}
+
+const maxLabelCache = 256
+
+var labelCacheSize atomic.Int64
