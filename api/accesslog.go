@@ -16,6 +16,9 @@ func (s *Server) accessLog() gin.HandlerFunc {
 	return func(c *gin.Context) {
 		start := time.Now()
 		c.Next()
+		if !s.log.Enabled(c.Request.Context(), slog.LevelInfo) {
+			return // below the log level: build nothing
+		}
 		status := c.Writer.Status()
 		if c.GetBool(ctxClientGone) {
 			status = StatusClientGone
