@@ -64,9 +64,16 @@ func decimalParts(b []byte) (mant uint64, frac int, neg, ok bool) {
 // Anything else (spaces, blanks, exponents, text, more digits) comes back
 // with ok false for the caller's full reading.
 func cutField(b []byte) (f []byte, v float64, ok, more bool) {
-	i, neg := 0, false
-	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
-		neg, i = b[0] == '-', 1
+	end, v, ok := cutFieldAt(b, 0)
+	return b[:end], v, ok, end < len(b)
+}
+
+// cutFieldAt is cutField for the field of b starting at pos: it returns
+// where the field ends (len(b), or the index of the comma after it).
+func cutFieldAt(b []byte, pos int) (end int, v float64, ok bool) {
+	i, neg := pos, false
+	if i < len(b) && (b[i] == '-' || b[i] == '+') {
+		neg, i = b[i] == '-', i+1
 	}
 	start := i
 	var mant uint64
@@ -91,26 +98,15 @@ func cutField(b []byte) (f []byte, v float64, ok, more bool) {
 		frac = i - from
 		digits += frac
 	}
-	switch {
-	case digits > 15:
-		return slowField(b, i)
-	case i == len(b):
+	if digits <= 15 && (i == len(b) || b[i] == ',') {
 		v, ok = decimalValue(mant, frac, neg, digits)
-		return b, v, ok, false
-	case b[i] == ',':
-		v, ok = decimalValue(mant, frac, neg, digits)
-		return b[:i], v, ok, true
+		return i, v, ok
 	}
-	return slowField(b, i)
-}
-
-// slowField cuts the field of b that is not a plain decimal from byte i on.
-func slowField(b []byte, i int) (f []byte, v float64, ok, more bool) {
-	j := bytes.IndexByte(b[i:], ',')
-	if j < 0 {
-		return b, 0, false, false
+	// Not a plain decimal of at most 15 digits: find the field's end.
+	if j := bytes.IndexByte(b[i:], ','); j >= 0 {
+		return i + j, 0, false
 	}
-	return b[:i+j], 0, false, true
+	return len(b), 0, false
 }
 
 // decimalValue is parseDecimal's result for the parts read.

@@ -3,6 +3,7 @@ package telemetry
 import (
 	"fmt"
 	"math"
+	"slices"
 )
 
 // electrical computes charge, energy, power, current and voltage extremes and
@@ -96,20 +97,20 @@ func (a *analysis) cellVoltage() []float64 {
 	out := make([]float64, l.Rows)
 	switch {
 	case l.Cells != nil:
+		// One pass over the samples, the cells' least at each (a blank
+		// is never less; none with a reading leaves NaN).
+		cells := slices.DeleteFunc(slices.Clone(a.cells), func(c []float64) bool { return c == nil })
 		for i := range out {
-			out[i] = math.Inf(1)
-		}
-		for _, c := range a.cells {
-			for i, v := range c {
-				if v < out[i] {
-					out[i] = v
+			least := math.Inf(1)
+			for _, c := range cells {
+				if v := c[i]; v < least {
+					least = v
 				}
 			}
-		}
-		for i, v := range out {
-			if math.IsInf(v, 1) {
-				out[i] = math.NaN()
+			if math.IsInf(least, 1) {
+				least = math.NaN()
 			}
+			out[i] = least
 		}
 	case a.p.CellsS > 0:
 		for i, v := range l.PackV {

@@ -12,25 +12,42 @@ import (
 // frequency at unit gain), run forward then backward: zero phase, second
 // order overall. It removes gravity and slow manoeuvres.
 func highPass(t, x []float64, cutoffHz float64) []float64 {
+	return highPassWith(highPassSteps(t, cutoffHz), x)
+}
+
+// hpSteps are a high-pass's per-step coefficients over a run of sample
+// times: for the step ending at sample i (1 <= i < n), ka[i] = k/(k+1) and
+// kb[i] = (k-1)/(k+1) with k = 2 RC / dt. They depend on the times only, so
+// axes sampled at the same times share them, and the backward pass reuses
+// the forward pass's (its step from i+1 to i is the same dt).
+type hpSteps struct{ ka, kb []float64 }
+
+func highPassSteps(t []float64, cutoffHz float64) hpSteps {
 	rc := 1 / (2 * math.Pi * cutoffHz)
-	// Each step is y[i] = k/(k+1) dx + (k-1)/(k+1) y[i-1]: the divisions
-	// depend on the time step only, so they stay off the chain from one
-	// output to the next (dividing the sum instead puts one on every link).
-	y := make([]float64, len(x))
-	for i := 1; i < len(x); i++ {
+	s := hpSteps{make([]float64, len(t)), make([]float64, len(t))}
+	for i := 1; i < len(t); i++ {
 		k := 2 * rc / (t[i] - t[i-1])
 		inv := 1 / (k + 1)
-		y[i] = k*inv*(x[i]-x[i-1]) + (k-1)*inv*y[i-1]
+		s.ka[i], s.kb[i] = k*inv, (k-1)*inv
+	}
+	return s
+}
+
+// highPassWith runs the filter over x with the steps of its times. Each
+// step is y[i] = ka dx + kb y[i-1], the divisions (in the steps) off the
+// chain from one output to the next.
+func highPassWith(s hpSteps, x []float64) []float64 {
+	y := make([]float64, len(x))
+	for i := 1; i < len(x); i++ {
+		y[i] = s.ka[i]*(x[i]-x[i-1]) + s.kb[i]*y[i-1]
 	}
 	// The backward pass overwrites the forward output in place: z[i] needs
 	// y[i] and y[i+1] but not z[i+1]'s input once z[i+1] is computed.
 	next := y[len(y)-1] // y[i+1] before it was overwritten
 	y[len(y)-1] = 0
 	for i := len(x) - 2; i >= 0; i-- {
-		k := 2 * rc / (t[i+1] - t[i])
-		inv := 1 / (k + 1)
 		yi := y[i]
-		y[i] = k*inv*(yi-next) + (k-1)*inv*y[i+1]
+		y[i] = s.ka[i+1]*(yi-next) + s.kb[i+1]*y[i+1]
 		next = yi
 	}
 	return y
@@ -101,13 +118,24 @@ func (a *analysis) vibration() {
 	// at its start, as a span without blanks is), and the RMS is
 	// time-weighted over all runs.
 	var axes []piece
+	// Axes without blanks share their runs' times, and so their steps.
+	steps := map[[2]int]hpSteps{}
+	stepsFor := func(pt []float64) hpSteps {
+		key := [2]int{cap(l.T) - cap(pt), len(pt)} // where the run starts in l.T, and its length
+		s, ok := steps[key]
+		if !ok {
+			s = highPassSteps(pt, v.CutoffHz)
+			steps[key] = s
+		}
+		return s
+	}
 	axis := func(x []float64) *float64 {
 		if x == nil {
 			return nil
 		}
 		var s, span float64
 		for _, pc := range pieces(l.T, x, lo, hi) {
-			hp := piece{pc.t, highPass(pc.t, pc.y, v.CutoffHz)}
+			hp := piece{pc.t, highPassWith(stepsFor(pc.t), pc.y)}
 			axes = append(axes, hp)
 			ss, sp := squares(hp.t, hp.y)
 			s, span = s+ss, span+sp

@@ -142,11 +142,13 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 	// add books dt seconds during which the rpm runs linearly from a to b
 	// (a <= b) into the bins: per bin the share of dt its part of [a, b]
 	// takes, with the integrals of rpm and rpm^2 over it.
-	add := func(dt, a, b float64) {
+	// abin is int(a/width), passed in: each sample's quotient is taken once,
+	// not once for each interval it ends.
+	add := func(dt, a, b float64, abin int) {
 		if b <= 0 {
 			return // stopped: not turning time
 		}
-		if i := int(a / width); b == a || (float64(i)*width <= a && b <= float64(i+1)*width && i < n) {
+		if i := abin; b == a || (float64(i)*width <= a && b <= float64(i+1)*width && i < n) {
 			if b != a {
 				// Within one bin: the loop below's single step, without it.
 				d := dt * (b - a) / (b - a)
@@ -161,7 +163,7 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 			sq[i] += dt * a * a
 			return
 		}
-		for i := max(0, int(a/width)); i < n && float64(i)*width < b; i++ {
+		for i := max(0, abin); i < n && float64(i)*width < b; i++ {
 			lo, hi := max(a, float64(i)*width), min(b, float64(i+1)*width)
 			if hi <= lo {
 				continue
@@ -172,15 +174,21 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 			sq[i] += d * (lo*lo + lo*hi + hi*hi) / 3
 		}
 	}
+	prevBin := 0
+	if len(rpm) > 0 {
+		prevBin = int(rpm[0] / width)
+	}
 	for i := 1; i < len(rpm); i++ {
 		a, b := rpm[i-1], rpm[i]
+		abin, bbin := prevBin, int(b/width)
+		prevBin = bbin
 		if a != a || b != b {
 			continue // no reading at an end: the interval is left out
 		}
 		if a > b {
-			a, b = b, a
+			a, b, abin = b, a, bbin
 		}
-		add(t[i]-t[i-1], a, b)
+		add(t[i]-t[i-1], a, b, abin)
 	}
 	out := []RPMBin{}
 	for b := range n {

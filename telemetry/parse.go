@@ -454,20 +454,20 @@ func (p *parser) row(b []byte) error {
 		p.growAll(max(2*r, 1024))
 	}
 	n := len(p.cols)
-	rest := b
+	pos := 0
 	for k := range n {
-		f, v, ok, more := cutField(rest)
+		end, v, ok := cutFieldAt(b, pos)
+		more := end < len(b)
 		if k < n-1 && !more {
 			return p.refuse(p.line, p.cols[k+1].name,
 				fmt.Sprintf("row has %d fields, the header has %d", k+1, n))
 		}
 		if k == n-1 && more {
 			return p.refuse(p.line, p.cols[k].name,
-				fmt.Sprintf("row has %d fields, the header has %d", n+1+bytes.Count(rest[len(f)+1:], []byte{','}), n))
+				fmt.Sprintf("row has %d fields, the header has %d", n+1+bytes.Count(b[end+1:], []byte{','}), n))
 		}
-		if more {
-			rest = rest[len(f)+1:]
-		}
+		f := b[pos:end]
+		pos = end + 1
 		c := &p.cols[k]
 		if c.dst == nil {
 			continue
