@@ -229,16 +229,21 @@ func TestIdempotencyMultipartNewBoundary(t *testing.T) {
 func TestIdempotencyLeaseRenewedWhileRunning(t *testing.T) {
 	e := newEnv(t)
 	short := *e
-	short.h = api.New(e.db, e.log, api.Limits{IdempotencyLease: 300 * time.Millisecond}, nil).Handler()
+	// The lease is short so the test is quick, but not so short that a
+	// loaded machine (CI shares two cores with many test binaries) stalls a
+	// renewal past it: 300 ms lapsed there and made the retry hang on the lock.
+	const lease = 1500 * time.Millisecond
+	short.h = api.New(e.db, e.log, api.Limits{IdempotencyLease: lease}, nil).Handler()
 	ctx := t.Context()
 	holder, err := e.db.Pool().Begin(ctx)
 	if err != nil {
 		t.Fatal(err)
 	}
+	defer holder.Rollback(context.Background())
 	if _, err := holder.Exec(ctx, `LOCK TABLE jobs IN EXCLUSIVE MODE`); err != nil {
 		t.Fatal(err)
 	}
-	done := make(chan int)
+	done := make(chan int, 1)
 	go func() {
 		req := httptest.NewRequest("POST", "/v1/jobs", strings.NewReader(`{"code":"LR-1","client":"c"}`))
 		req.Header.Set("Content-Type", "application/json")
@@ -249,9 +254,21 @@ func TestIdempotencyLeaseRenewedWhileRunning(t *testing.T) {
 		done <- rec.Code
 	}()
 	waitBlocked(t, e.db)
-	time.Sleep(time.Second) // over three lease lengths
-	if r := short.call("POST", "/v1/jobs", tech, []byte(`{"code":"LR-1","client":"c"}`), "Idempotency-Key", "long"); r.Status != 409 {
-		t.Fatalf("retry while the first runs past its lease: %d %s", r.Status, r.Body)
+	time.Sleep(3*lease + 500*time.Millisecond) // over three lease lengths
+	// A retry that got past the key would wait on the lock for ever: bound
+	// it, so a lapsed lease fails the test instead of hanging it.
+	retry := make(chan *resp, 1)
+	go func() {
+		retry <- short.call("POST", "/v1/jobs", tech, []byte(`{"code":"LR-1","client":"c"}`), "Idempotency-Key", "long")
+	}()
+	select {
+	case r := <-retry:
+		if r.Status != 409 {
+			t.Fatalf("retry while the first runs past its lease: %d %s", r.Status, r.Body)
+		}
+	case <-time.After(30 * time.Second):
+		holder.Rollback(context.Background())
+		t.Fatal("the retry went past the idempotency key (the lease lapsed while the first request ran)")
 	}
 	holder.Rollback(ctx)
 	if code := <-done; code != 201 {
