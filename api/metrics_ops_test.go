@@ -273,15 +273,35 @@ func TestMetricsOutbox(t *testing.T) {
 }
 
 // Due items by status match the due list the API serves; airframes by
-// status match what the API says of each.
+// status match what the API says of each (grounded by a hold, and by an
+// overdue grounding rule).
 func TestMetricsDueAndAirframes(t *testing.T) {
 	e, _ := opsEnv(t)
 	f := e.scrape()
 	for _, st := range []string{"active", "grounded", "retired"} {
 		f.want(t, 0, "rotorwright_airframes", "status", st)
 	}
-	a, b, c := e.quad("MX-01"), e.quad("MX-02"), e.quad("MX-03")
+	a, b, c, d := e.quad("MX-01"), e.quad("MX-02"), e.quad("MX-03"), e.quad("MX-04")
 	e.fitQuad(a, "A", "", time.Now().Add(-24*time.Hour))
+	// Motors overdue after 2 flights (grounding); propellers due soon at
+	// half of 3 flights: two flights give all three statuses.
+	for _, rule := range []map[string]any{
+		{"name": "motor check every 2 flights", "applies_to": "motor", "flights": 2, "grounding": true, "action": "replace"},
+		{"name": "propeller check every 3 flights", "applies_to": "propeller", "flights": 3, "warn_at": 0.5, "action": "inspect"},
+	} {
+		if r := e.call("POST", "/v1/service-rules", admin, rule); r.Status != 201 {
+			t.Fatalf("rule: %d %s", r.Status, r.Body)
+		}
+	}
+	pack := e.create("/v1/parts", map[string]any{"kind": "pack", "serial": "MX-PK", "part_number": "PK-4S",
+		"specs": map[string]any{"chemistry": "lipo", "cells_s": 4, "cells_p": 1, "rated_mah": 5000}})
+	for _, h := range []int{10, 8} {
+		at := time.Now().Add(-time.Duration(h) * time.Hour).UTC().Truncate(time.Second)
+		if r := e.call("POST", "/v1/flights", pilot, map[string]any{"airframe_id": a.ID, "pilot": "test pilot",
+			"takeoff_at": at, "landing_at": at.Add(20 * time.Minute), "packs": []string{pack.ID}}); r.Status != 201 {
+			t.Fatalf("flight: %d %s", r.Status, r.Body)
+		}
+	}
 	tag := e.call("GET", "/v1/airframes/"+b.ID, fleet.RoleViewer, nil).Header.Get("ETag")
 	var got idBody
 	e.call("PATCH", "/v1/airframes/"+b.ID, tech, map[string]any{"hold_reason": "arm crack"}, "If-Match", tag).decode(t, &got)
@@ -292,10 +312,19 @@ func TestMetricsDueAndAirframes(t *testing.T) {
 	if r := e.call("DELETE", "/v1/airframes/"+c.ID, admin, nil, "If-Match", tag); r.Status != 200 {
 		t.Fatalf("retire: %d %s", r.Status, r.Body)
 	}
+	byAirframe := map[string]float64{}
+	for _, id := range []string{a.ID, b.ID, c.ID, d.ID} {
+		var af idBody
+		e.call("GET", "/v1/airframes/"+id, fleet.RoleViewer, nil).decode(t, &af)
+		byAirframe[af.Status]++
+	}
+	if byAirframe["grounded"] != 2 || byAirframe["active"] != 1 || byAirframe["retired"] != 1 {
+		t.Fatalf("the API's airframe statuses %v, want 2 grounded (hold, overdue rule), 1 active, 1 retired", byAirframe)
+	}
 	f = e.scrape()
-	f.want(t, 1, "rotorwright_airframes", "status", "active")
-	f.want(t, 1, "rotorwright_airframes", "status", "grounded")
-	f.want(t, 1, "rotorwright_airframes", "status", "retired")
+	for st, n := range byAirframe {
+		f.want(t, n, "rotorwright_airframes", "status", st)
+	}
 
 	var due struct {
 		Items []struct {
@@ -307,8 +336,9 @@ func TestMetricsDueAndAirframes(t *testing.T) {
 	for _, it := range due.Items {
 		byStatus[it.Status]++
 	}
-	if len(due.Items) == 0 {
-		t.Fatal("no due items to count: the fitted quad should have some")
+	if byStatus[fleet.DueOK] == 0 || byStatus[fleet.DueSoon] == 0 || byStatus[fleet.DueOverdue] == 0 ||
+		byStatus[fleet.DueSoon] == byStatus[fleet.DueOverdue] {
+		t.Fatalf("the due list %v should hold every status, due_soon and overdue in different numbers", byStatus)
 	}
 	for _, st := range []string{fleet.DueOK, fleet.DueSoon, fleet.DueOverdue} {
 		f.want(t, byStatus[st], "rotorwright_due_items", "status", st)
