@@ -6,6 +6,8 @@ import (
 	"sort"
 	"time"
 
+	gojson "github.com/goccy/go-json"
+
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
 	"github.com/rotorwright/rotorwright/wear"
@@ -107,7 +109,10 @@ func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time,
 	spectrum := map[[2]float64]*SpectrumBin{}
 	for _, r := range runs {
 		var bins []rpmBin
-		if err := json.Unmarshal(r.Bins, &bins); err != nil {
+		// goccy/go-json decodes these (every run of the motor's history, on
+		// each refresh) about ten times faster than encoding/json, to the
+		// same values (TestBinsDecodeAsStdlib).
+		if err := gojson.Unmarshal(r.Bins, &bins); err != nil {
 			return err
 		}
 		for _, b := range bins {

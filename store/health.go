@@ -206,7 +206,7 @@ func (db *DB) RotorRuns(ctx context.Context, partID string, since time.Time) ([]
 	return collect(rows, func(r pgx.Row) (RotorRun, error) {
 		var m RotorRun
 		return m, r.Scan(&m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
-			&m.MeanRPM, &m.ThrustMeanN, &m.Bins)
+			&m.MeanRPM, &m.ThrustMeanN, (*[]byte)(&m.Bins)) // as bytes: pgx would parse a json.RawMessage target
 	})
 }
 
@@ -272,7 +272,7 @@ func (db *DB) SavePartHealth(ctx context.Context, partID, status string, view an
 // PartHealth returns a part's stored health view (ENOTFOUND when never computed).
 func (db *DB) PartHealth(ctx context.Context, partID string) (json.RawMessage, error) {
 	var v json.RawMessage
-	err := db.pool.QueryRow(ctx, `SELECT view FROM part_health WHERE part_id = $1`, partID).Scan(&v)
+	err := db.pool.QueryRow(ctx, `SELECT view FROM part_health WHERE part_id = $1`, partID).Scan((*[]byte)(&v))
 	if err != nil {
 		return nil, translateNotFound(err, "health")
 	}
@@ -295,7 +295,7 @@ func (db *DB) SaveAirframeTrends(ctx context.Context, airframeID string, flagged
 // AirframeTrends returns an airframe's stored trends (ENOTFOUND when never computed).
 func (db *DB) AirframeTrends(ctx context.Context, airframeID string) (json.RawMessage, error) {
 	var v json.RawMessage
-	err := db.pool.QueryRow(ctx, `SELECT view FROM airframe_trends WHERE airframe_id = $1`, airframeID).Scan(&v)
+	err := db.pool.QueryRow(ctx, `SELECT view FROM airframe_trends WHERE airframe_id = $1`, airframeID).Scan((*[]byte)(&v))
 	if err != nil {
 		return nil, translateNotFound(err, "trends")
 	}

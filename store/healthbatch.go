@@ -54,7 +54,7 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 		var id string
 		var m RotorRun
 		if err := rows.Scan(&id, &m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
-			&m.MeanRPM, &m.ThrustMeanN, &m.Bins); err != nil {
+			&m.MeanRPM, &m.ThrustMeanN, (*[]byte)(&m.Bins)); err != nil { // bytes, unparsed
 			return nil, translate(err)
 		}
 		out[id] = append(out[id], m)

@@ -189,7 +189,7 @@ func (db *DB) views(ctx context.Context, q string, ids []string) (map[string]jso
 	for rows.Next() {
 		var id string
 		var v json.RawMessage
-		if err := rows.Scan(&id, &v); err != nil {
+		if err := rows.Scan(&id, (*[]byte)(&v)); err != nil {
 			return nil, translate(err)
 		}
 		out[id] = v
