@@ -60,6 +60,47 @@ func meanOver(t, y []float64, lo, hi int) float64 {
 	return sum / float64(n) // NaN when n is 0
 }
 
+// meansOver is meanOver of y and of y squared over samples lo..hi, in one
+// pass: each sum is taken in meanOver's order, so both are meanOver's
+// results to the bit.
+func meansOver(t, y []float64, lo, hi int) (mean, meanSq float64) {
+	tt, yy := t[lo:hi+1], y[lo:hi+1]
+	var s, s2, covered float64
+	gap := false
+	for i := 1; i < len(tt); i++ {
+		a, b := yy[i-1], yy[i]
+		if a != a || b != b {
+			gap = true
+			continue
+		}
+		dt := tt[i] - tt[i-1]
+		s += dt * (a + b)
+		s2 += dt * (a*a + b*b)
+		covered += dt
+	}
+	finish := func(s float64, square bool) float64 {
+		switch {
+		case !gap && hi > lo:
+			return s / 2 / (t[hi] - t[lo])
+		case covered > 0:
+			return s / 2 / covered
+		}
+		var sum float64
+		n := 0
+		for _, v := range yy {
+			if v == v {
+				if square {
+					v *= v
+				}
+				sum += v
+				n++
+			}
+		}
+		return sum / float64(n) // NaN when n is 0
+	}
+	return finish(s, false), finish(s2, true)
+}
+
 // bridge fills the blanks (NaN) of y that lie between two readings at most
 // maxGapS apart by linear interpolation in time, so that figures combining
 // columns sample by sample, and integrals, span short dropouts; blanks in

@@ -32,8 +32,10 @@ func (a *analysis) rotors() {
 		// The mean over rotors of each rotor's mean over its readings aloft.
 		var sum float64
 		n := 0
-		for _, r := range a.rpm {
-			if v := meanOver(l.T, r, a.lo, a.hi); v == v {
+		meanSq := make([]float64, len(a.rpm)) // each rotor's mean rpm^2 aloft, for the thrust constant
+		for k, r := range a.rpm {
+			v, v2 := meansOver(l.T, r, a.lo, a.hi)
+			if meanSq[k] = v2; v == v {
 				sum += v
 				n++
 			}
@@ -41,7 +43,7 @@ func (a *analysis) rotors() {
 		if n > 0 {
 			m.HoverRPM = ptr(sum / float64(n))
 		}
-		a.thrustConstant()
+		a.thrustConstant(meanSq)
 	}
 	for k, r := range l.RPM {
 		rpm := a.rpm[k]
@@ -76,7 +78,7 @@ func (a *analysis) rotors() {
 // starts and ends at rest has no net vertical impulse), and T = k rpm^2, so
 // k = m g / (N mean(rpm^2)) with the mean over rotors and airborne time
 // (each rotor's over its readings; rotors without one aloft left out).
-func (a *analysis) thrustConstant() {
+func (a *analysis) thrustConstant(meanSq []float64) {
 	l, m, p := a.l, a.m, a.p
 	switch {
 	case !(p.MassKg > 0):
@@ -88,12 +90,8 @@ func (a *analysis) thrustConstant() {
 	}
 	var sum float64
 	n := 0
-	sq := make([]float64, l.Rows)
-	for _, r := range a.rpm {
-		for i, v := range r[a.lo : a.hi+1] {
-			sq[a.lo+i] = v * v // only the span is read
-		}
-		if v := meanOver(l.T, sq, a.lo, a.hi); v == v {
+	for _, v := range meanSq {
+		if v == v {
 			sum += v
 			n++
 		}

@@ -76,3 +76,37 @@ func TestMedianBySelectionMatchesSort(t *testing.T) {
 		}
 	}
 }
+
+// meansOver gives meanOver's results to the bit, for the series and its
+// squares: spans without blanks, with blanks, all blank, one sample.
+func TestMeansOverMatchesMeanOver(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for range 500 {
+		n := 1 + rng.IntN(60)
+		ts, y := make([]float64, n), make([]float64, n)
+		for i := range ts {
+			ts[i] = float64(i)*0.02 + rng.Float64()*0.01
+			y[i] = 3000 + 4000*rng.Float64()
+			if p := rng.IntN(4); p == 0 && rng.IntN(3) == 0 {
+				y[i] = math.NaN()
+			}
+		}
+		if rng.IntN(10) == 0 {
+			for i := range y {
+				y[i] = math.NaN()
+			}
+		}
+		lo := rng.IntN(n)
+		hi := lo + rng.IntN(n-lo)
+		sq := make([]float64, n)
+		for i, v := range y {
+			sq[i] = v * v
+		}
+		m, m2 := meansOver(ts, y, lo, hi)
+		w, w2 := meanOver(ts, y, lo, hi), meanOver(ts, sq, lo, hi)
+		same := func(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) || (a != a && b != b) }
+		if !same(m, w) || !same(m2, w2) {
+			t.Fatalf("meansOver(%v, %d..%d) = %v, %v; meanOver gives %v, %v", y, lo, hi, m, m2, w, w2)
+		}
+	}
+}
