@@ -247,14 +247,28 @@ func dueItemsArgs(f DueFilter) []any {
 }
 
 func scanDueItem(r pgx.Row) (*fleet.DueItem, error) {
-	var d fleet.DueItem
-	var usage []byte
-	if err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
-		&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
-		&d.ForecastDate, &d.ForecastReason, &d.ComputedAt); err != nil {
+	d, usage, err := scanDueItemRaw(r)
+	if err != nil {
 		return nil, err
 	}
-	return &d, json.Unmarshal(usage, &d.Usage)
+	return d, json.Unmarshal(usage, &d.Usage)
+}
+
+// scanDueItemRaw scans a due item leaving its usage undecoded.
+func scanDueItemRaw(r pgx.Row) (*fleet.DueItem, []byte, error) {
+	var d fleet.DueItem
+	var usage []byte
+	err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
+		&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
+		&d.ForecastDate, &d.ForecastReason, &d.ComputedAt)
+	return &d, usage, err
+}
+
+// scanDueItemNoUsage scans a due item without its usage (nil), for
+// answers that weigh the status, not the figures behind it.
+func scanDueItemNoUsage(r pgx.Row) (*fleet.DueItem, error) {
+	d, _, err := scanDueItemRaw(r)
+	return d, err
 }
 
 // DueItems lists due items, most urgent first.

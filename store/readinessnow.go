@@ -12,7 +12,10 @@ import (
 
 // ReadinessNow is everything a readiness answer at a moment reads that the
 // store can give in one round trip: the airframe's facts, the active
-// notices, the discrepancies open then and the named packs' facts.
+// notices, the discrepancies open then and the named packs' facts. Its due
+// items (the airframe's and each pack's) come without their usage: a
+// readiness answer weighs their status, and decoding the figures behind it
+// was a tenth of its CPU.
 type ReadinessNow struct {
 	*ReadinessFacts
 	Notices       []*fleet.Notice
@@ -77,7 +80,7 @@ func (db *DB) ReadinessNow(ctx context.Context, airframeID string, at time.Time,
 	if rf.Events, err = collectBatch(br, scanEvent); err != nil {
 		return nil, err
 	}
-	if rf.Due, err = collectBatch(br, scanDueItem); err != nil {
+	if rf.Due, err = collectBatch(br, scanDueItemNoUsage); err != nil {
 		return nil, err
 	}
 	if out.Notices, err = collectBatch(br, scanNotice); err != nil {
@@ -99,7 +102,7 @@ func (db *DB) ReadinessNow(ctx context.Context, airframeID string, at time.Time,
 		if err := br.QueryRow().Scan(&pn.Swollen); err != nil {
 			return nil, translate(err)
 		}
-		if pn.Due, err = collectBatch(br, scanDueItem); err != nil {
+		if pn.Due, err = collectBatch(br, scanDueItemNoUsage); err != nil {
 			return nil, err
 		}
 		if found {
