@@ -218,6 +218,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 	m.SetWebhookURLs(len(a.cfg.Webhooks))
 	m.InitJob("recompute")
 	m.InitJob("nightly")
+	m.InitJob("sessions")
 	r.Start()
 	dctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	done := make(chan struct{})
