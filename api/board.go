@@ -17,29 +17,18 @@ import (
 // queries and hands it to web to render. Query counts below include the
 // session lookup.
 
-// boardFleet is the fleet page: 10 queries (session, 5 for every airframe's
-// readiness facts, the active notices, open discrepancies, totals, open
-// events); with notices active, their facts in a few more, plus one per
-// subject of a notice with a usage window, as the readiness route does.
+// boardFleet is the fleet page: 2 round trips (the session; every
+// airframe's readiness facts, the active notices, open discrepancies,
+// totals and open events pipelined as one batch); with notices active,
+// their compliance facts too, as on the readiness route.
 func (s *Server) boardFleet(c *gin.Context) {
-	ctx := c.Request.Context()
-	all, err := s.prog.FleetReadiness(ctx)
-	if err != nil {
-		s.boardFail(c, err)
-		return
-	}
-	totals, err := s.db.FleetTotals(ctx)
-	if err != nil {
-		s.boardFail(c, err)
-		return
-	}
-	open, err := s.db.OpenEventCounts(ctx)
+	all, fn, err := s.prog.FleetReadinessNow(c.Request.Context())
 	if err != nil {
 		s.boardFail(c, err)
 		return
 	}
 	s.renderPage(c, http.StatusOK, web.Page{Name: "fleet", Title: "Fleet",
-		Data: web.FleetPage(all, totals, open, c.Query("model"), c.Query("status"))})
+		Data: web.FleetPage(all, fn.Totals, fn.OpenEvents, c.Query("model"), c.Query("status"))})
 }
 
 // boardAirframe is the airframe page: 14 queries (session, airframe, layout,
