@@ -85,4 +85,18 @@ func TestTopViewLabels(t *testing.T) {
 	if strings.Contains(svg, " style=") {
 		t.Error("top view keeps style attributes")
 	}
+	// The callouts (serials, gauges) are one group the style sheet can hide
+	// on a phone; the discs and their labels are outside it.
+	_, callouts, ok := strings.Cut(svg, `<g class="callouts"`)
+	if !ok || strings.Count(svg, `class="callouts"`) != 1 {
+		t.Fatal("top view has no one callouts group")
+	}
+	for _, want := range []string{">MOT-1<", ">PR-1<", ">no motor<", ">bearing 40 %<"} {
+		if !strings.Contains(callouts, want) {
+			t.Errorf("%s is not in the callouts group", want)
+		}
+	}
+	if before, _, _ := strings.Cut(svg, `<g class="callouts"`); !strings.Contains(before, ">m1<") || !strings.Contains(before, ">FWD<") {
+		t.Error("the position labels are not drawn before the callouts")
+	}
 }

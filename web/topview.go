@@ -126,7 +126,18 @@ func TopView(id, title string, positions []PositionView) (Chart, error) {
 		dc.FillPolygon(topInk, []vg.Point{pt(ex+6*tx, ey+6*ty), pt(ex-3*tx+4*nx, ey-3*ty+4*ny), pt(ex-3*tx-4*nx, ey-3*ty-4*ny)})
 		textAt(bold, 15, topInk, text.XCenter, rx, ry+5, p.Label)
 		textAt(chartFont, 11, topInk, text.XCenter, rx, ry-11, string(p.Rotation))
+	}
 
+	// The callouts, in a group of their own (marked below) that the style
+	// sheet hides on a phone: scaled to a phone's width their text is a few
+	// pixels high and crowds the discs, and the table under the drawing
+	// gives the same parts and gauges, with links.
+	c.Push()
+	c.Translate(vg.Point{})
+	for _, p := range positions {
+		a := p.ArmDeg * math.Pi / 180
+		sx, sy := math.Sin(a), math.Cos(a)
+		rx, ry := cx+arm*sx, cy+arm*sy
 		// Callout beyond the disc, on the outer side.
 		lx := rx + (disc+10)*sx
 		xa := text.XLeft
@@ -140,6 +151,12 @@ func TopView(id, title string, positions []PositionView) (Chart, error) {
 			ly -= 46
 		} else {
 			ly += 36
+			// A block above a disc and over it sideways (near the nose on
+			// an octo) reads down towards the disc: its last line, 64 pt
+			// under its first, must clear the disc's top.
+			if math.Abs(sx) < 0.7 {
+				ly = math.Max(ly, ry+disc+64+10)
+			}
 		}
 		for i, g := range []*Gauge{p.Motor, p.Prop} {
 			kind := [...]string{"motor", "prop"}[i]
@@ -167,10 +184,15 @@ func TopView(id, title string, positions []PositionView) (Chart, error) {
 			textAt(chartFont, 12, levelInk[g.Level], xa, lx, y0-9, g.Text)
 		}
 	}
+	c.Pop()
 	var buf bytes.Buffer
 	if _, err := c.WriteTo(&buf); err != nil {
 		return Chart{}, err
 	}
-	return Chart{ID: id, Title: title, SVG: inlineSVG(buf.Bytes(), id, title, nil),
-		Caption: "Seen from above, nose up; arrows show each rotor's turning direction; bars show bearing life used (motor) and the propeller's replacement limit used."}, nil
+	// vgsvg writes the translation by nothing as the callouts' group; the
+	// drawing has no other, so the first is theirs.
+	svg := bytes.Replace(buf.Bytes(), []byte(`<g transform="translate(0, 0)">`), []byte(`<g class="callouts" transform="translate(0, 0)">`), 1)
+	return Chart{ID: id, Title: title, SVG: inlineSVG(svg, id, title, nil),
+		Caption: "Seen from above, nose up; arrows show each rotor's turning direction; bars show bearing life used (motor) and " +
+			"the propeller's replacement limit used (on a narrow screen, in the table below)."}, nil
 }
