@@ -21,7 +21,8 @@ import (
 const recomputeBatch = 64
 
 // Recompute recomputes every motor, propeller and pack and every airframe's
-// trends; progress, when set, hears the count done. Batches of parts are
+// trends; progress, when set, hears the count done (from the workers, one call at a
+// time not guaranteed: it must be safe for concurrent use). Batches of parts are
 // read with one query per kind of record (parts, fits, rotor runs; packs
 // still read their own flights and checks), computed as Part computes them
 // and stored with one statement per batch, on a bounded pool of workers
