@@ -14,21 +14,34 @@ func (a *analysis) electrical() {
 	a.pw = pw
 	m.MinPackV = math.Inf(1)
 	m.PeakPowerW, m.PeakA = math.Inf(-1), math.Inf(-1)
+	// One pass: power, extremes and the trapezoid sums of current and
+	// power, each sum in Trapezoid's order (pack_v and pack_a never hold
+	// NaN, so every interval counts and meanOver's sum is Trapezoid's).
+	var sa, sp float64
 	for i := range pw {
 		pw[i] = l.PackV[i] * l.PackA[i]
 		m.PeakPowerW = max(m.PeakPowerW, pw[i])
 		m.PeakA = max(m.PeakA, l.PackA[i])
 		m.MinPackV = min(m.MinPackV, l.PackV[i])
+		if i > 0 {
+			dt := l.T[i] - l.T[i-1]
+			sa += dt * (l.PackA[i] + l.PackA[i-1])
+			sp += dt * (pw[i] + pw[i-1])
+		}
 	}
 	// mAh = (1000/3600) * integral I dt; Wh = integral V I dt / 3600.
-	m.ChargeMah = Trapezoid(l.T, l.PackA) * 1000 / 3600
-	m.EnergyWh = Trapezoid(l.T, pw) / 3600
-	m.LogMeanPowerW = meanOver(l.T, pw, 0, l.Rows-1)
+	m.ChargeMah = sa / 2 * 1000 / 3600
+	m.EnergyWh = sp / 2 / 3600
+	if l.Rows > 1 {
+		m.LogMeanPowerW = sp / 2 / (l.T[l.Rows-1] - l.T[0])
+	} else {
+		m.LogMeanPowerW = meanOver(l.T, pw, 0, 0)
+	}
 
 	// Minima over the readings only, so exactly the least value logged.
 	lowest := math.Inf(1)
 	for _, c := range l.Cells {
-		lo, _, ok := extremes(c)
+		lo, ok := least(c)
 		if !ok {
 			m.MinCellsV = append(m.MinCellsV, nil)
 			continue

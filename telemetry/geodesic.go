@@ -92,12 +92,33 @@ func (e Ellipsoid) Inverse(lat1, lon1, lat2, lon2 float64) (metres, azimuth1Deg 
 // ecef is a point on the ellipsoid surface in Earth-centred Cartesian metres.
 type ecef struct{ x, y, z float64 }
 
-func (e Ellipsoid) surface(lat, lon float64) ecef {
-	e2 := e.F * (2 - e.F)
-	sp, cp := math.Sincos(lat * math.Pi / 180)
-	sl, cl := math.Sincos(lon * math.Pi / 180)
-	n := e.A / math.Sqrt(1-e2*sp*sp)
-	return ecef{n * cp * cl, n * cp * sl, n * (1 - e2) * sp}
+// surfacer gives the points of a run of fixes on the ellipsoid surface: a latitude or longitude equal
+// to the previous fix's reuses its sine and cosine (GNSS fixes repeat
+// when the receiver updates slower than the log): the same point to the
+// bit as computing each afresh.
+type surfacer struct {
+	e                 Ellipsoid
+	lat, lon          float64 // the previous fix; NaN before the first
+	sp, cp, n, sl, cl float64
+}
+
+func newSurfacer(e Ellipsoid) surfacer {
+	return surfacer{e: e, lat: math.NaN(), lon: math.NaN()}
+}
+
+func (s *surfacer) at(lat, lon float64) ecef {
+	e2 := s.e.F * (2 - s.e.F)
+	if lat != s.lat {
+		s.lat = lat
+		s.sp, s.cp = math.Sincos(lat * math.Pi / 180)
+		s.n = s.e.A / math.Sqrt(1-e2*s.sp*s.sp)
+	}
+	if lon != s.lon {
+		s.lon = lon
+		s.sl, s.cl = math.Sincos(lon * math.Pi / 180)
+	}
+	n := s.n
+	return ecef{n * s.cp * s.cl, n * s.cp * s.sl, n * (1 - e2) * s.sp}
 }
 
 func chord(p, q ecef) float64 {
@@ -114,11 +135,12 @@ func track(lat, lon []float64) (dist, maxRange float64, err error) {
 	if len(lat) == 0 {
 		return 0, 0, nil
 	}
-	first := WGS84.surface(lat[0], lon[0])
+	sf := newSurfacer(WGS84)
+	first := sf.at(lat[0], lon[0])
 	prev := first
 	far, farChord := 0, 0.0
 	for i := 1; i < len(lat); i++ {
-		pt := WGS84.surface(lat[i], lon[i])
+		pt := sf.at(lat[i], lon[i])
 		c := chord(prev, pt)
 		prev = pt
 		if c >= chordLimit {

@@ -64,26 +64,41 @@ func meanOver(t, y []float64, lo, hi int) float64 {
 // pass: each sum is taken in meanOver's order, so both are meanOver's
 // results to the bit.
 func meansOver(t, y []float64, lo, hi int) (mean, meanSq float64) {
-	tt, yy := t[lo:hi+1], y[lo:hi+1]
-	var s, s2, covered float64
-	gap := false
-	for i := 1; i < len(tt); i++ {
-		a, b := yy[i-1], yy[i]
+	var ms meanSums
+	for i := lo + 1; i <= hi; i++ {
+		a, b := y[i-1], y[i]
 		if a != a || b != b {
-			gap = true
+			ms.gap = true
 			continue
 		}
-		dt := tt[i] - tt[i-1]
-		s += dt * (a + b)
-		s2 += dt * (a*a + b*b)
-		covered += dt
+		ms.add(t[i]-t[i-1], a, b)
 	}
+	return ms.means(t, y, lo, hi)
+}
+
+// meanSums are meansOver's running sums, for passes that gather them
+// beside other figures: add each interval of lo..hi with a reading at both
+// ends in order, set gap for any other.
+type meanSums struct {
+	s, s2, covered float64
+	gap            bool
+}
+
+func (ms *meanSums) add(dt, a, b float64) {
+	ms.s += dt * (a + b)
+	ms.s2 += dt * (a*a + b*b)
+	ms.covered += dt
+}
+
+// means finishes meansOver from the sums over samples lo..hi of y.
+func (ms *meanSums) means(t, y []float64, lo, hi int) (mean, meanSq float64) {
+	yy := y[lo : hi+1]
 	finish := func(s float64, square bool) float64 {
 		switch {
-		case !gap && hi > lo:
+		case !ms.gap && hi > lo:
 			return s / 2 / (t[hi] - t[lo])
-		case covered > 0:
-			return s / 2 / covered
+		case ms.covered > 0:
+			return s / 2 / ms.covered
 		}
 		var sum float64
 		n := 0
@@ -98,7 +113,7 @@ func meansOver(t, y []float64, lo, hi int) (mean, meanSq float64) {
 		}
 		return sum / float64(n) // NaN when n is 0
 	}
-	return finish(s, false), finish(s2, true)
+	return finish(ms.s, false), finish(ms.s2, true)
 }
 
 // bridge fills the blanks (NaN) of y that lie between two readings at most
@@ -137,19 +152,49 @@ func bridge(t, y []float64, maxGapS float64) (out []float64, uncovered float64) 
 	return out, uncovered
 }
 
-// extremes are the least and greatest readings of y (NaN blanks skipped);
-// ok is false when there is none.
-func extremes(y []float64) (lo, hi float64, ok bool) {
-	lo, hi = math.Inf(1), math.Inf(-1)
-	for _, v := range y {
+// least is the least reading of y (NaN blanks skipped), the one a scan
+// from the start finds; ok is false when there is none. Four running minima over interleaved samples, then the
+// least of them: a minimum does not depend on the order it is taken in, and
+// four chains of compares run side by side where one waits on each.
+func least(y []float64) (lo float64, ok bool) {
+	m0, m1, m2, m3 := math.Inf(1), math.Inf(1), math.Inf(1), math.Inf(1)
+	i := 0
+	for ; i+4 <= len(y); i += 4 {
+		if v := y[i]; v < m0 {
+			m0 = v
+		}
+		if v := y[i+1]; v < m1 {
+			m1 = v
+		}
+		if v := y[i+2]; v < m2 {
+			m2 = v
+		}
+		if v := y[i+3]; v < m3 {
+			m3 = v
+		}
+	}
+	for ; i < len(y); i++ {
+		if v := y[i]; v < m0 {
+			m0 = v
+		}
+	}
+	lo = m0
+	for _, v := range [...]float64{m1, m2, m3} {
 		if v < lo {
 			lo = v
 		}
-		if v > hi {
-			hi = v
+	}
+	if lo == 0 {
+		// +0 and -0 tie: the first one in the series is the one a single
+		// scan reports, so take that scan.
+		lo = math.Inf(1)
+		for _, v := range y {
+			if v < lo {
+				lo = v
+			}
 		}
 	}
-	return lo, hi, lo <= hi
+	return lo, lo < math.Inf(1)
 }
 
 // median returns the median of xs without changing xs: the middle order

@@ -1,6 +1,9 @@
 package telemetry
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // MotorRun is one motor position's duty in the flight.
 type MotorRun struct {
@@ -23,18 +26,26 @@ type RPMBin struct {
 }
 
 // rotors computes hover rpm, the thrust constant and each motor's run.
+// Each motor's samples are read once (motorPass): its revolutions, its time
+// above idle, its load spectrum and its means aloft come from that one pass,
+// each sum taken in the order a separate pass takes it, so the figures are
+// those of separate passes to the bit.
 func (a *analysis) rotors() {
 	l, m, p := a.l, a.m, a.p
 	if len(l.RPM) == 0 {
 		return
+	}
+	passes := make([]motorPass, len(l.RPM))
+	for k := range l.RPM {
+		passes[k] = newMotorPass(l.T, a.rpm[k], a.idleRPM, p.RPMBinWidth, a.lo, a.hi)
 	}
 	if a.lo >= 0 {
 		// The mean over rotors of each rotor's mean over its readings aloft.
 		var sum float64
 		n := 0
 		meanSq := make([]float64, len(a.rpm)) // each rotor's mean rpm^2 aloft, for the thrust constant
-		for k, r := range a.rpm {
-			v, v2 := meansOver(l.T, r, a.lo, a.hi)
+		for k := range a.rpm {
+			v, v2 := passes[k].aloft.means(l.T, a.rpm[k], a.lo, a.hi)
 			if meanSq[k] = v2; v == v {
 				sum += v
 				n++
@@ -46,30 +57,18 @@ func (a *analysis) rotors() {
 		a.thrustConstant(meanSq)
 	}
 	for k, r := range l.RPM {
-		rpm := a.rpm[k]
-		revs, _, _ := integral(l.T, rpm)
-		mr := MotorRun{Position: r.Position, Revolutions: revs / 60, Bins: []RPMBin{}}
-		var on, onRPM, onRPM2 float64
-		for i, v := range rpm { // a blank has weight 0 and is not above idle
-			if v > a.idleRPM {
-				w := trapezoidWeight(l.T, rpm, i)
-				on += w
-				onRPM += w * v
-				onRPM2 += w * v * v
-			}
-		}
-		mr.RunS = on
-		if on > 0 {
-			mr.MeanRPM = ptr(onRPM / on)
+		ps := &passes[k]
+		mr := MotorRun{Position: r.Position, Revolutions: ps.revs / 2 / 60, RunS: ps.on}
+		if ps.on > 0 {
+			mr.MeanRPM = ptr(ps.onRPM / ps.on)
 			if m.ThrustK != nil {
-				mr.ThrustMeanN = ptr(*m.ThrustK * onRPM2 / on)
+				mr.ThrustMeanN = ptr(*m.ThrustK * ps.onRPM2 / ps.on)
 			}
 		}
-		bins, ok := spectrum(l.T, rpm, p.RPMBinWidth, m.ThrustK)
-		if !ok {
+		if !ps.binned {
 			a.note(fmt.Sprintf("rpm_%s needs more than %d bins of %g rpm: no load spectrum", r.Position, maxBins, p.RPMBinWidth))
 		}
-		mr.Bins = bins
+		mr.Bins = ps.bins(m.ThrustK)
 		m.Motors = append(m.Motors, mr)
 	}
 }
@@ -102,41 +101,41 @@ func (a *analysis) thrustConstant(meanSq []float64) {
 	m.ThrustK = ptr(p.MassKg * G0 / (sum * float64(len(l.RPM)) / float64(n)))
 }
 
-// trapezoidWeight is sample i's weight in the trapezoidal rule over the
-// intervals whose both ends have a reading in y (half of each such
-// interval it ends), so that sum w_i y_i (blanks skipped) == integral(t, y).
-// Summed from the left interval, as a running sum over the intervals would.
-func trapezoidWeight(t, y []float64, i int) float64 {
-	w := 0.0
-	if i > 0 && y[i] == y[i] && y[i-1] == y[i-1] {
-		w += (t[i] - t[i-1]) / 2
-	}
-	if i+1 < len(t) && y[i] == y[i] && y[i+1] == y[i+1] {
-		w += (t[i+1] - t[i]) / 2
-	}
-	return w
+// motorPass is what one pass over a motor's rpm series gathers.
+type motorPass struct {
+	// revs is twice the trapezoidal integral of rpm over the intervals with
+	// a reading at both ends (integral's sum before its halving).
+	revs float64
+	// on, onRPM, onRPM2 sum w, w rpm and w rpm^2 over the samples above
+	// idle, w a sample's trapezoid weight: half of each interval it ends
+	// whose both ends have a reading (the left one first), so that sum w_i
+	// y_i (blanks skipped) == integral(t, y).
+	on, onRPM, onRPM2 float64
+	// The load spectrum's sums per bin (see spectrum); binned is false when
+	// the rpm needs more than maxBins bins (none are kept).
+	width           float64
+	binned          bool
+	secs, revB, sqB []float64
+	// aloft holds meansOver's sums over the airborne samples.
+	aloft meanSums
 }
 
-// spectrum is a motor's load spectrum: time, revolutions and mean thrust
-// per rpm bin while turning. Between two samples the rpm is taken to change
-// linearly (the trapezoidal rule's own assumption), and each interval is
-// split across the bins it spans in proportion to the time its rpm spends in
-// each, so a long gap across a bin edge is shared as the rpm crossed it (a
-// sample-weight rule would hand half the gap to each end's bin). Revolutions
-// per bin are the integral of rpm/60 over that time, so the bins add up to
-// the motor's revolutions exactly; thrust uses the integral of rpm^2.
-func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
+// newMotorPass reads rpm once. lo..hi is the airborne span (lo < 0: none).
+func newMotorPass(t, rpm []float64, idle, width float64, lo, hi int) motorPass {
+	ps := motorPass{width: width}
 	top := 0.0
 	for _, v := range rpm {
 		if v > top {
 			top = v
 		}
 	}
-	if top/width >= maxBins {
-		return []RPMBin{}, false
+	ps.binned = top/width < maxBins
+	n := 0
+	if ps.binned {
+		n = int(top/width) + 1
+		ps.secs, ps.revB, ps.sqB = make([]float64, n), make([]float64, n), make([]float64, n)
 	}
-	n := int(top/width) + 1
-	secs, revs, sq := make([]float64, n), make([]float64, n), make([]float64, n)
+	secs, revs, sq := ps.secs, ps.revB, ps.sqB
 	// add books dt seconds during which the rpm runs linearly from a to b
 	// (a <= b) into the bins: per bin the share of dt its part of [a, b]
 	// takes, with the integrals of rpm and rpm^2 over it.
@@ -173,31 +172,81 @@ func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
 		}
 	}
 	prevBin := 0
-	if len(rpm) > 0 {
+	if ps.binned && len(rpm) > 0 {
 		prevBin = int(rpm[0] / width)
 	}
+	left := 0.0 // the half of the interval before sample i-1 that counts in its weight
 	for i := 1; i < len(rpm); i++ {
 		a, b := rpm[i-1], rpm[i]
-		abin, bbin := prevBin, int(b/width)
-		prevBin = bbin
-		if a != a || b != b {
-			continue // no reading at an end: the interval is left out
+		dt := t[i] - t[i-1]
+		right := 0.0
+		if a == a && b == b { // a reading at both ends, else the interval is left out
+			ps.revs += dt * (a + b)
+			right = dt / 2
+			if lo >= 0 && i-1 >= lo && i <= hi {
+				ps.aloft.add(dt, a, b)
+			}
+		} else if lo >= 0 && i-1 >= lo && i <= hi {
+			ps.aloft.gap = true
 		}
-		if a > b {
-			a, b, abin = b, a, bbin
+		if a > idle { // sample i-1 has both its halves now; a blank is not above idle
+			w := left + right
+			ps.on += w
+			ps.onRPM += w * a
+			ps.onRPM2 += w * a * a
 		}
-		add(t[i]-t[i-1], a, b, abin)
+		left = right
+		if ps.binned {
+			abin, bbin := prevBin, int(b/width)
+			prevBin = bbin
+			if a != a || b != b {
+				continue
+			}
+			if a > b {
+				a, b, abin = b, a, bbin
+			}
+			add(dt, a, b, abin)
+		}
 	}
+	if k := len(rpm) - 1; k >= 0 && rpm[k] > idle {
+		w := left
+		ps.on += w
+		ps.onRPM += w * rpm[k]
+		ps.onRPM2 += w * rpm[k] * rpm[k]
+	}
+	return ps
+}
+
+// bins are the load spectrum's bins with time in them, ascending; mean
+// thrust needs the thrust constant k.
+func (ps *motorPass) bins(k *float64) []RPMBin {
 	out := []RPMBin{}
-	for b := range n {
-		if secs[b] == 0 {
+	width := ps.width
+	for b := range ps.secs {
+		if ps.secs[b] == 0 {
 			continue
 		}
-		bin := RPMBin{RPMLo: float64(b) * width, RPMHi: float64(b+1) * width, Seconds: secs[b], Revolutions: revs[b]}
+		bin := RPMBin{RPMLo: float64(b) * width, RPMHi: float64(b+1) * width, Seconds: ps.secs[b], Revolutions: ps.revB[b]}
 		if k != nil {
-			bin.MeanThrustN = ptr(*k * sq[b] / secs[b])
+			bin.MeanThrustN = ptr(*k * ps.sqB[b] / ps.secs[b])
 		}
 		out = append(out, bin)
 	}
-	return out, true
+	return out
+}
+
+// spectrum is a motor's load spectrum: time, revolutions and mean thrust
+// per rpm bin while turning. Between two samples the rpm is taken to change
+// linearly (the trapezoidal rule's own assumption), and each interval is
+// split across the bins it spans in proportion to the time its rpm spends in
+// each, so a long gap across a bin edge is shared as the rpm crossed it (a
+// sample-weight rule would hand half the gap to each end's bin). Revolutions
+// per bin are the integral of rpm/60 over that time, so the bins add up to
+// the motor's revolutions exactly; thrust uses the integral of rpm^2.
+func spectrum(t, rpm []float64, width float64, k *float64) ([]RPMBin, bool) {
+	ps := newMotorPass(t, rpm, math.Inf(1), width, -1, -1)
+	if !ps.binned {
+		return []RPMBin{}, false
+	}
+	return ps.bins(k), true
 }
