@@ -189,6 +189,15 @@ func (b *browser) visit(t testing.TB, url string, width int64) string {
 	if len(dims) != 2 || dims[0] > dims[1] {
 		t.Errorf("%s at %d px scrolls sideways: scrollWidth %v > innerWidth", url, width, dims)
 	}
+	// A card's content can spill under its neighbour without widening the
+	// page (the planner's overdue table did): no card may be wider inside
+	// than its box (1 px for rounding).
+	spills := eval[[]string](t, b, `[...document.querySelectorAll(".card")]
+		.filter(c => c.scrollWidth > c.clientWidth + 1)
+		.map(c => (c.querySelector("h2,h3")||{}).textContent + " " + c.scrollWidth + ">" + c.clientWidth)`)
+	for _, s := range spills {
+		t.Errorf("%s at %d px: a card's content spills out of it: %s", url, width, s)
+	}
 	return at
 }
 
