@@ -187,6 +187,10 @@ type RotorRun struct {
 	MeanRPM     *float64
 	ThrustMeanN *float64
 	Bins        json.RawMessage
+	// BinsArray is Bins as motor_runs.bins_array holds it (five values a
+	// bin: rpm_lo, rpm_hi, seconds, revolutions, mean_thrust_n or nil),
+	// read instead of Bins by RotorRunsOf; nil when Bins is read.
+	BinsArray []*float64
 }
 
 // RotorRuns lists the runs of the position a motor or propeller was fitted

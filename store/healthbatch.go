@@ -34,11 +34,12 @@ func (db *DB) FitsOf(ctx context.Context, partIDs []string) ([]*fleet.Fit, error
 
 // RotorRunsOf is RotorRuns for many parts in one query: for each part, the
 // runs of the position it was fitted at on every flight while fitted, from
-// its since on, by part, oldest first.
+// its since on, by part, oldest first. Bins come as BinsArray (binary
+// float8, no JSON to print and parse again).
 func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time) (map[string][]RotorRun, error) {
 	rows, err := db.pool.Query(ctx, `
 		SELECT f.part_id::text, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
-			mr.thrust_mean_n, mr.bins
+			mr.thrust_mean_n, mr.bins_array
 		FROM unnest($1::uuid[], $2::timestamptz[]) AS q (part_id, since)
 		JOIN fits f ON f.part_id = q.part_id
 		JOIN flights fl ON `+fitAtTakeoff+`
@@ -54,8 +55,11 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 		var id string
 		var m RotorRun
 		if err := rows.Scan(&id, &m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
-			&m.MeanRPM, &m.ThrustMeanN, (*[]byte)(&m.Bins)); err != nil { // bytes, unparsed
+			&m.MeanRPM, &m.ThrustMeanN, &m.BinsArray); err != nil {
 			return nil, translate(err)
+		}
+		if m.BinsArray == nil {
+			m.BinsArray = []*float64{} // an empty list of bins, still read as an array
 		}
 		out[id] = append(out[id], m)
 	}
