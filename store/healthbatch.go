@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"encoding/json"
+	"slices"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -44,8 +45,7 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 		JOIN fits f ON f.part_id = q.part_id
 		JOIN flights fl ON `+fitAtTakeoff+`
 		JOIN motor_runs mr ON mr.flight_id = fl.id AND mr.position = f.position
-		WHERE fl.takeoff_at >= q.since
-		ORDER BY f.part_id, fl.takeoff_at`, partIDs, since)
+		WHERE fl.takeoff_at >= q.since`, partIDs, since)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -55,15 +55,25 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 		var id string
 		var m RotorRun
 		if err := rows.Scan(&id, &m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
-			&m.MeanRPM, &m.ThrustMeanN, &m.BinsArray); err != nil {
+			&m.MeanRPM, &m.ThrustMeanN, nil); err != nil {
 			return nil, translate(err)
 		}
-		if m.BinsArray == nil {
-			m.BinsArray = []*float64{} // an empty list of bins, still read as an array
+		// The array is decoded here: pgx's generic array scan into
+		// []*float64 cost more than reading the rows.
+		if m.BinsArray, err = float8Array(rows.FieldDescriptions()[9].Format, rows.RawValues()[9]); err != nil {
+			return nil, err
 		}
 		out[id] = append(out[id], m)
 	}
-	return out, translate(rows.Err())
+	if err := rows.Err(); err != nil {
+		return nil, translate(err)
+	}
+	// Oldest first, sorted here: the database's sort of the wide rows cost
+	// more than this one of each part's runs.
+	for _, list := range out {
+		slices.SortStableFunc(list, func(a, b RotorRun) int { return a.TakeoffAt.Compare(b.TakeoffAt) })
+	}
+	return out, nil
 }
 
 // StrikesOf returns the propeller strikes on the airframes or naming the
