@@ -321,8 +321,7 @@ func (p *Programme) partView(ctx context.Context, s store.Subject, h *history, a
 	} else if err != nil {
 		return nil, err
 	}
-	var v health.View
-	return &v, json.Unmarshal(raw, &v)
+	return health.DecodeView(raw)
 }
 
 // trendsView is an airframe's trends view (nil before any logged flight),
