@@ -6,6 +6,7 @@ import (
 	"slices"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/selection"
 )
 
 // Defaults taken by Params fields left at zero. Each is this package's choice
@@ -365,7 +366,7 @@ const LiftFraction = 0.8
 // landing is not airborne. Samples without a reading are passed over.
 func liftSpan(level []float64, first, last int) (lo, hi int) {
 	run := slices.DeleteFunc(slices.Clone(level[first:last+1]), func(v float64) bool { return v != v })
-	nthElement(run, len(run)/2) // the sort's middle value, without the sort
+	selection.Nth(run, len(run)/2) // the sort's middle value, without the sort
 	threshold := LiftFraction * run[len(run)/2]
 	lo, hi = first, last
 	for lo < last && !(level[lo] >= threshold) {

@@ -3,8 +3,9 @@ package telemetry
 import (
 	"fmt"
 	"math"
-	"math/bits"
 	"slices"
+
+	"github.com/rotorwright/rotorwright/internal/selection"
 )
 
 // Trapezoid integrates y over t by the trapezoidal rule over the actual time
@@ -210,60 +211,13 @@ func median(xs []float64) float64 {
 		}
 		return (s[n/2-1] + s[n/2]) / 2
 	}
-	nthElement(s, n/2)
+	selection.Nth(s, n/2)
 	if n%2 == 1 {
 		return s[n/2]
 	}
 	// After selection s[:n/2] holds the lower half, whose largest is the
 	// other middle value.
 	return (slices.Max(s[:n/2]) + s[n/2]) / 2
-}
-
-// nthElement reorders s (no NaN) so that s[k] is the value a sort puts
-// there, none after it less and none before it greater: quickselect with a
-// median-of-three pivot. After 2*log2(n) rounds it sorts what is left, so
-// that no input (logs come from outside) makes it quadratic.
-func nthElement(s []float64, k int) {
-	lo, hi := 0, len(s)-1
-	for budget := 2 * bits.Len(uint(len(s))); lo < hi; budget-- {
-		if budget == 0 {
-			slices.Sort(s[lo : hi+1])
-			return
-		}
-		mid := lo + (hi-lo)/2
-		if s[mid] < s[lo] {
-			s[mid], s[lo] = s[lo], s[mid]
-		}
-		if s[hi] < s[lo] {
-			s[hi], s[lo] = s[lo], s[hi]
-		}
-		if s[hi] < s[mid] {
-			s[hi], s[mid] = s[mid], s[hi]
-		}
-		p := s[mid]
-		i, j := lo, hi
-		for i <= j {
-			for s[i] < p {
-				i++
-			}
-			for s[j] > p {
-				j--
-			}
-			if i <= j {
-				s[i], s[j] = s[j], s[i]
-				i, j = i+1, j-1
-			}
-		}
-		// Now s[lo..j] <= p <= s[i..hi], and anything between equals p.
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return
-		}
-	}
 }
 
 func ptr(v float64) *float64 { return &v }

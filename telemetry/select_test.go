@@ -5,6 +5,8 @@ import (
 	"math/rand/v2"
 	"slices"
 	"testing"
+
+	"github.com/rotorwright/rotorwright/internal/selection"
 )
 
 // sortedMedian is the median by a full sort (slices.Sort, the reference).
@@ -32,13 +34,13 @@ func TestMedianBySelectionMatchesSort(t *testing.T) {
 			want := slices.Sorted(slices.Values(xs))
 			for k := range n {
 				s := slices.Clone(xs)
-				nthElement(s, k)
+				selection.Nth(s, k)
 				if s[k] != want[k] {
-					t.Fatalf("nthElement(%v, %d) = %v, the sort gives %v", xs, k, s[k], want[k])
+					t.Fatalf("selection.Nth(%v, %d) = %v, the sort gives %v", xs, k, s[k], want[k])
 				}
 				for i := range s {
 					if (i < k && s[i] > s[k]) || (i > k && s[i] < s[k]) {
-						t.Fatalf("nthElement(%v, %d) leaves %v out of place: %v", xs, k, s[i], s)
+						t.Fatalf("selection.Nth(%v, %d) leaves %v out of place: %v", xs, k, s[i], s)
 					}
 				}
 			}

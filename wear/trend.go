@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/selection"
 )
 
 // TheilSen returns the Theil-Sen robust line through (x, y): the slope is
@@ -44,54 +45,11 @@ func TheilSen(x, y []float64) (slope, intercept float64, err error) {
 // view. The values are the sorted order's middle ones exactly.
 func median(v []float64) float64 {
 	n := len(v)
-	hi := selectNth(v, n/2)
+	hi := selection.Nth(v, n/2)
 	if n%2 == 1 {
 		return hi
 	}
 	return (slices.Max(v[:n/2]) + hi) / 2 // v[:n/2] holds the n/2 smallest
-}
-
-// selectNth reorders v so that v[k] is the value a sort would put there,
-// with none greater before it and none smaller after it, and returns it
-// (Hoare's selection, median-of-three pivots). v holds no NaN.
-func selectNth(v []float64, k int) float64 {
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		mid := lo + (hi-lo)/2
-		if v[mid] < v[lo] {
-			v[mid], v[lo] = v[lo], v[mid]
-		}
-		if v[hi] < v[lo] {
-			v[hi], v[lo] = v[lo], v[hi]
-		}
-		if v[hi] < v[mid] {
-			v[hi], v[mid] = v[mid], v[hi]
-		}
-		pivot := v[mid]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < pivot {
-				i++
-			}
-			for v[j] > pivot {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i, j = i+1, j-1
-			}
-		}
-		// v[lo..j] <= pivot <= v[i..hi]; between them, the pivot's equals.
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
 }
 
 // TrendResult is a robust trend over the last flights of an airframe.
