@@ -121,7 +121,7 @@ func TestUploadWithBlankCells(t *testing.T) {
 	lay := sim.LogLayouts()[0]
 	m := e.createMap(lay.Map)
 	var foreign bytes.Buffer
-	if err := lay.Transcribe(holed2, &foreign); err != nil {
+	if err := lay.Rewrite(holed2, &foreign); err != nil {
 		t.Fatal(err)
 	}
 	r = e.uploadWith(flight, foreign.Bytes(), logPart{mapRef: m.Name})

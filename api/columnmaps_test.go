@@ -217,7 +217,7 @@ func TestUploadThroughColumnMap(t *testing.T) {
 		t.Fatal(err)
 	}
 	var foreign bytes.Buffer
-	if err := layouts[0].Transcribe(native.Bytes(), &foreign); err != nil {
+	if err := layouts[0].Rewrite(native.Bytes(), &foreign); err != nil {
 		t.Fatal(err)
 	}
 	flight := map[string]any{"airframe_id": a.ID, "pilot": "test pilot", "packs": []string{pk.ID},

@@ -15,12 +15,12 @@ import (
 	"github.com/rotorwright/rotorwright/internal/sim"
 )
 
-// benchLayouts are the 90,000-row benchmark log transcribed into the
+// benchLayouts are the 90,000-row benchmark log rewritten into the
 // simulator's three foreign layouts, with their maps.
 func benchLayouts(b *testing.B) (names []string, logs [][]byte, maps []*fleet.ColumnMap) {
 	for _, l := range sim.LogLayouts() {
 		var buf bytes.Buffer
-		if err := l.Transcribe(benchLog(), &buf); err != nil {
+		if err := l.Rewrite(benchLog(), &buf); err != nil {
 			b.Fatal(err)
 		}
 		var m fleet.ColumnMap

@@ -298,7 +298,7 @@ func TestBlankCellsMappedLayouts(t *testing.T) {
 	cms := simMaps(t)
 	for i, lay := range sim.LogLayouts() {
 		var b bytes.Buffer
-		if err := lay.Transcribe(holed, &b); err != nil {
+		if err := lay.Rewrite(holed, &b); err != nil {
 			t.Fatal(err)
 		}
 		ml, err := telemetry.ParseMapped(bytes.NewReader(b.Bytes()), cms[i], telemetry.Limits{})

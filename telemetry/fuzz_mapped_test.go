@@ -48,7 +48,7 @@ func FuzzParseMapped(f *testing.F) {
 	}
 	for i, l := range sim.LogLayouts() {
 		var b bytes.Buffer
-		if err := l.Transcribe(native.Bytes(), &b); err != nil {
+		if err := l.Rewrite(native.Bytes(), &b); err != nil {
 			f.Fatal(err)
 		}
 		lines := bytes.SplitAfterN(b.Bytes(), []byte{'\n'}, 12)

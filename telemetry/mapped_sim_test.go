@@ -62,7 +62,7 @@ func TestLayoutsGiveNativeFigures(t *testing.T) {
 			}
 			for i, l := range sim.LogLayouts() {
 				var b bytes.Buffer
-				if err := l.Transcribe(native.Bytes(), &b); err != nil {
+				if err := l.Rewrite(native.Bytes(), &b); err != nil {
 					t.Fatal(err)
 				}
 				ml, err := telemetry.ParseMapped(bytes.NewReader(b.Bytes()), maps[i], telemetry.Limits{})
@@ -154,7 +154,7 @@ func TestDetectPicksTheLayoutsMap(t *testing.T) {
 	}
 	for i, l := range sim.LogLayouts() {
 		var b bytes.Buffer
-		if err := l.Transcribe(native.Bytes(), &b); err != nil {
+		if err := l.Rewrite(native.Bytes(), &b); err != nil {
 			t.Fatal(err)
 		}
 		got := telemetry.Detect(b.Bytes()[:min(b.Len(), telemetry.DetectBytes)], maps)

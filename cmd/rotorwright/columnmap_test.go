@@ -52,7 +52,7 @@ func TestColumnMapCheckAndImport(t *testing.T) {
 	files := map[string][]byte{"native.csv": native.Bytes()}
 	for _, l := range layouts {
 		var b bytes.Buffer
-		if err := l.Transcribe(native.Bytes(), &b); err != nil {
+		if err := l.Rewrite(native.Bytes(), &b); err != nil {
 			t.Fatal(err)
 		}
 		files[l.Name+".csv"] = b.Bytes()

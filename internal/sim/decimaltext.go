@@ -6,7 +6,7 @@ import (
 	"strings"
 )
 
-// Exact arithmetic on the decimal text of a log field, so a transcribed
+// Exact arithmetic on the decimal text of a log field, so a rewritten
 // layout carries the same numbers as the native log.
 
 // splitDecimal reads [-]digits[.digits] as its sign, its digits without the

@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// The transcription helpers are exact decimal arithmetic; the checks compare
+// The rewriting helpers are exact decimal arithmetic; the checks compare
 // them with math/big's exact rationals (a general-purpose reference).
 func TestShiftDecimal(t *testing.T) {
 	for _, c := range []struct {

@@ -57,15 +57,15 @@ func WriteLayout(spec FlightSpec, l LogLayout, w io.Writer) (Truth, error) {
 	if err != nil {
 		return Truth{}, err
 	}
-	return tr, l.Transcribe(native.Bytes(), w)
+	return tr, l.Rewrite(native.Bytes(), w)
 }
 
-// Transcribe rewrites a native log as the simulator writes it in layout l,
+// Rewrite writes a native log again in layout l, as the simulator would,
 // field by field on the decimal text (a change of unit moves the decimal
 // point; Fahrenheit and negation are exact decimal arithmetic), so the
 // layout carries exactly the native log's information. A blank cell stays
 // blank (a quoted layout writes it "").
-func (l LogLayout) Transcribe(native []byte, w io.Writer) error {
+func (l LogLayout) Rewrite(native []byte, w io.Writer) error {
 	bw := bufio.NewWriterSize(w, 64<<10)
 	eol := "\n"
 	if l.crlf {
