@@ -3,7 +3,6 @@ package api
 import (
 	"context"
 	"net/http"
-	"strconv"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -76,13 +75,9 @@ func (s *Server) listEvents(c *gin.Context) {
 			return
 		}
 	}
-	if v := c.Query("open"); v != "" {
-		b, err := strconv.ParseBool(v)
-		if err != nil {
-			s.fail(c, fleet.FieldError("open", "must be true or false"))
-			return
-		}
-		f.Open = &b
+	if f.Open, err = queryBool(c, "open"); err != nil {
+		s.fail(c, err)
+		return
 	}
 	list, next, err := s.db.Events(c.Request.Context(), f, p)
 	if err != nil {

@@ -43,14 +43,12 @@ func (s *Server) listNotices(c *gin.Context) {
 		s.fail(c, fleet.FieldError("category", "must be mandatory or advisory"))
 		return
 	}
-	switch c.Query("active") {
-	case "", "false":
-	case "true":
-		f.Active = true
-	default:
-		s.fail(c, fleet.FieldError("active", "must be true or false"))
+	active, err := queryBool(c, "active")
+	if err != nil {
+		s.fail(c, err)
 		return
 	}
+	f.Active = active != nil && *active
 	list, next, err := s.db.Notices(c.Request.Context(), f, p)
 	if err != nil {
 		s.fail(c, err)

@@ -6,7 +6,6 @@ import (
 
 	"github.com/gin-gonic/gin"
 
-	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/records"
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -22,14 +21,12 @@ func (s *Server) airframeRecords(c *gin.Context) {
 		return
 	}
 	var o records.Options
-	switch c.Query("logs") {
-	case "", "false":
-	case "true":
-		o.Logs = true
-	default:
-		s.fail(c, fleet.FieldError("logs", "must be true or false"))
+	logs, err := queryBool(c, "logs")
+	if err != nil {
+		s.fail(c, err)
 		return
 	}
+	o.Logs = logs != nil && *logs
 	ctx := c.Request.Context()
 	a, err := s.db.Airframe(ctx, id)
 	if err != nil {

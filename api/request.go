@@ -226,6 +226,19 @@ func queryID(c *gin.Context, name string) (string, error) {
 	return store.ParseID(name, v)
 }
 
+// queryBool reads an optional true/false query parameter (nil when absent);
+// only the two words the OpenAPI boolean allows.
+func queryBool(c *gin.Context, name string) (*bool, error) {
+	switch v := c.Query(name); v {
+	case "":
+		return nil, nil
+	case "true", "false":
+		b := v == "true"
+		return &b, nil
+	}
+	return nil, fleet.FieldError(name, "must be true or false")
+}
+
 // queryTime reads an optional RFC 3339 query parameter.
 func queryTime(c *gin.Context, name string) (*time.Time, error) {
 	v := c.Query(name)

@@ -3,7 +3,6 @@ package api
 import (
 	"github.com/gin-gonic/gin"
 
-	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -38,13 +37,8 @@ func (s *Server) listDiscrepancies(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	switch c.Query("open") {
-	case "":
-	case "true", "false":
-		open := c.Query("open") == "true"
-		f.Open = &open
-	default:
-		s.fail(c, fleet.FieldError("open", "must be true or false"))
+	if f.Open, err = queryBool(c, "open"); err != nil {
+		s.fail(c, err)
 		return
 	}
 	list, next, err := s.db.Discrepancies(c.Request.Context(), f, p)

@@ -27,6 +27,10 @@ func TestValidationNamesTheFieldEveryTime(t *testing.T) {
 		status             int
 		field              string
 	}{
+		{"events open=1", "GET", "/v1/events?open=1", pilot, nil, 400, "open"},
+		{"discrepancies open=yes", "GET", "/v1/discrepancies?open=yes", pilot, nil, 400, "open"},
+		{"notices active=TRUE", "GET", "/v1/notices?active=TRUE", pilot, nil, 400, "active"},
+		{"records logs=1", "GET", "/v1/airframes/" + a.ID + "/records?logs=1", tech, nil, 400, "logs"},
 		{"event time not RFC 3339", "POST", "/v1/events", pilot, map[string]any{"kind": "note", "airframe_id": a.ID, "at": "yesterday"}, 400, "at"},
 		{"event time as a number", "POST", "/v1/events", pilot, map[string]any{"kind": "note", "airframe_id": a.ID, "at": 1715678400}, 400, "at"},
 		{"flight time as a number", "POST", "/v1/flights", pilot, flight(1715678400, now), 400, "takeoff_at"},
