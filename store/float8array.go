@@ -65,3 +65,50 @@ func float8Array(format int16, b []byte) ([]*float64, error) {
 	}
 	return out, nil
 }
+
+// packedBins decodes bins_packed as the statement returned it: binary is
+// the bytes themselves (pgx asks for binary for bytea), decoded without a
+// copy; text (the simple protocol) is unescaped by pgx first.
+func packedBins(format int16, b []byte) ([]*float64, error) {
+	if format != pgtype.BinaryFormatCode && b != nil {
+		var raw []byte
+		if err := pgtype.NewMap().Scan(pgtype.ByteaOID, format, b, &raw); err != nil {
+			return nil, err
+		}
+		b = raw
+	}
+	return packedFloats(b)
+}
+
+// packedFloats decodes motor_runs.bins_packed (migration 023): each value a
+// tag byte, 0 for NULL (nil here) and 1 for a value, then for a value its
+// eight big-endian bytes. An empty input is an empty, non-nil slice.
+func packedFloats(b []byte) ([]*float64, error) {
+	if b == nil {
+		return nil, fmt.Errorf("packed floats: NULL")
+	}
+	n := 0 // values: count the tags first, for one allocation of each kind
+	for i := 0; i < len(b); n++ {
+		switch b[i] {
+		case 0:
+			i++
+		case 1:
+			if i+9 > len(b) {
+				return nil, fmt.Errorf("packed floats: value %d cut short", n)
+			}
+			i += 9
+		default:
+			return nil, fmt.Errorf("packed floats: tag %d at byte %d", b[i], i)
+		}
+	}
+	out, vals := make([]*float64, n), make([]float64, n)
+	for i := range out {
+		if b[0] == 0 {
+			b = b[1:]
+			continue
+		}
+		vals[i] = math.Float64frombits(binary.BigEndian.Uint64(b[1:]))
+		out[i], b = &vals[i], b[9:]
+	}
+	return out, nil
+}

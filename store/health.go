@@ -189,7 +189,8 @@ type RotorRun struct {
 	Bins        json.RawMessage
 	// BinsArray is Bins as motor_runs.bins_array holds it (five values a
 	// bin: rpm_lo, rpm_hi, seconds, revolutions, mean_thrust_n or nil),
-	// read instead of Bins by RotorRunsOf; nil when Bins is read.
+	// read (from its packed copy, bins_packed) instead of Bins by
+	// RotorRunsOf; nil when Bins is read.
 	BinsArray []*float64
 }
 

@@ -35,12 +35,13 @@ func (db *DB) FitsOf(ctx context.Context, partIDs []string) ([]*fleet.Fit, error
 
 // RotorRunsOf is RotorRuns for many parts in one query: for each part, the
 // runs of the position it was fitted at on every flight while fitted, from
-// its since on, by part, oldest first. Bins come as BinsArray (binary
-// float8, no JSON to print and parse again).
+// its since on, by part, oldest first. Bins come as BinsArray, read from
+// bins_packed (migration 023): no JSON to print and parse again, and no
+// float8[] to send element by element.
 func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time) (map[string][]RotorRun, error) {
 	rows, err := db.pool.Query(ctx, `
 		SELECT f.part_id::text, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
-			mr.thrust_mean_n, mr.bins_array
+			mr.thrust_mean_n, mr.bins_packed
 		FROM unnest($1::uuid[], $2::timestamptz[]) AS q (part_id, since)
 		JOIN fits f ON f.part_id = q.part_id
 		JOIN flights fl ON `+fitAtTakeoff+`
@@ -58,9 +59,7 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 			&m.MeanRPM, &m.ThrustMeanN, nil); err != nil {
 			return nil, translate(err)
 		}
-		// The array is decoded here: pgx's generic array scan into
-		// []*float64 cost more than reading the rows.
-		if m.BinsArray, err = float8Array(rows.FieldDescriptions()[9].Format, rows.RawValues()[9]); err != nil {
+		if m.BinsArray, err = packedBins(rows.FieldDescriptions()[9].Format, rows.RawValues()[9]); err != nil {
 			return nil, err
 		}
 		out[id] = append(out[id], m)

@@ -1,0 +1,4 @@
+package store
+
+// PackedBins is packedBins, for the external tests.
+var PackedBins = packedBins
