@@ -13,6 +13,7 @@ import (
 	"time"
 
 	kgzip "github.com/klauspost/compress/gzip"
+	"github.com/klauspost/compress/s2"
 	"github.com/klauspost/compress/zstd"
 
 	"github.com/rotorwright/rotorwright/internal/sim"
@@ -31,8 +32,9 @@ var simLog90k = sync.OnceValue(func() []byte {
 
 // BenchmarkStoredCodec compresses and decompresses the 90,000-row log with
 // each candidate codec for stored logs, in turn in every iteration: the standard library's gzip at
-// BestSpeed (the codec before), klauspost's gzip at BestSpeed (the same
-// format) and klauspost's zstd at SpeedFastest and SpeedDefault. ratio is
+// BestSpeed (the codec before), klauspost's gzip at BestSpeed and with
+// Huffman coding only (the same format; the latter packs uploads now),
+// klauspost's S2 and zstd at SpeedFastest and SpeedDefault. ratio is
 // compressed over plain size; MB/s is of the plain text.
 //
 //	go test -bench StoredCodec -run '^$' -benchtime 10x ./ingest
@@ -68,6 +70,19 @@ func BenchmarkStoredCodec(b *testing.B) {
 			out, _ := io.ReadAll(r)
 			return out
 		}},
+		{"klauspost-gzip-huffman", func(p []byte) []byte {
+			var buf bytes.Buffer
+			w, _ := kgzip.NewWriterLevel(&buf, kgzip.HuffmanOnly)
+			w.Write(p)
+			w.Close()
+			return buf.Bytes()
+		}, func(c []byte) []byte {
+			r, _ := kgzip.NewReader(bytes.NewReader(c))
+			out, _ := io.ReadAll(r)
+			return out
+		}},
+		{"s2", func(p []byte) []byte { return s2.Encode(nil, p) },
+			func(c []byte) []byte { out, _ := s2.Decode(nil, c); return out }},
 		{"zstd-fastest", func(p []byte) []byte { return zfast.EncodeAll(p, nil) },
 			func(c []byte) []byte { out, _ := zdec.DecodeAll(c, nil); return out }},
 		{"zstd-default", func(p []byte) []byte { return zdef.EncodeAll(p, nil) },

@@ -77,9 +77,10 @@ type Result struct {
 // Ingest parses, analyses and stores one log. The same log for the same
 // airframe returns the flight already recorded (Created false).
 func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
-	// A plain log is stored gzip-compressed. Compressing costs more than
-	// parsing, so it runs beside the parse and analysis (on another core)
-	// rather than after them; a refused or already-recorded log stops it.
+	// A plain log is stored gzip-compressed, packed fast now and smaller
+	// later by the repack job (compress.go). Packing runs beside the parse
+	// and analysis (on another core) rather than after them; a refused or
+	// already-recorded log stops it.
 	var packed *packing
 	if !req.Gzip && !bytes.HasPrefix(req.Log, gzipMagic) {
 		packed = startCompress(req.Log)
@@ -125,7 +126,7 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 			return Result{}, err
 		}
 	}
-	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz,
+	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz, Repack: packed != nil,
 		RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Blank: log.Blank, Analysis: a,
 		ColumnMap: rd.Map})
 	if err != nil {

@@ -99,8 +99,10 @@ type Analysis struct {
 
 // LoggedFlight is a flight uploaded with its log.
 type LoggedFlight struct {
-	Flight   *fleet.Flight // Source log, LogSHA256 set
-	RawGz    []byte
+	Flight *fleet.Flight // Source log, LogSHA256 set
+	RawGz  []byte
+	// Repack marks RawGz as packed fast at upload, for the repack job.
+	Repack   bool
 	RawBytes int64
 	Columns  []string
 	Unknown  []string
@@ -157,10 +159,10 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 		}
 		if _, err := tx.Exec(ctx, `
 			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version,
-				column_map_id, column_map_version, blank_cells)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`,
+				column_map_id, column_map_version, blank_cells, repack)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12)`,
 			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version,
-			mapID, mapVersion, lf.Blank); err != nil {
+			mapID, mapVersion, lf.Blank, lf.Repack); err != nil {
 			return err
 		}
 		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
