@@ -6,9 +6,12 @@
 package health
 
 import (
+	"cmp"
 	"context"
 	"fmt"
 	"time"
+
+	"golang.org/x/sync/errgroup"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
@@ -122,12 +125,15 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 		return err
 	}
 	// The parts as a batch (a few reads for all of them, one write), as
-	// Part would compute each.
-	if _, err := s.withDutyMemo().partBatch(ctx, parts, nil); err != nil {
+	// Part would compute each; the airframe's trends beside them, on
+	// another connection (they read only the airframe's flights).
+	g, gctx := errgroup.WithContext(ctx)
+	g.Go(func() error {
+		_, err := s.Airframe(gctx, f.AirframeID)
 		return err
-	}
-	_, err = s.Airframe(ctx, f.AirframeID)
-	return err
+	})
+	_, err = s.withDutyMemo().partBatch(gctx, parts, nil)
+	return cmp.Or(g.Wait(), err)
 }
 
 func ptr(v float64) *float64 { return &v }

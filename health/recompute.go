@@ -89,9 +89,46 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	if err != nil {
 		return 0, err
 	}
+	now := s.Now().UTC()
+	// Packs read their own records, nothing the rest of the batch reads:
+	// computed beside it on another connection, so their reads overlap the
+	// rotor runs' (results are the same; only the waits overlap).
+	packViews := make([]*View, len(parts))
+	g, gctx := errgroup.WithContext(ctx)
+	g.Go(func() error {
+		for i, p := range parts {
+			if p.Kind != fleet.KindPack {
+				continue
+			}
+			v := newView(p, now)
+			if err := s.pack(gctx, p, now, nil, v); err != nil {
+				return fmt.Errorf("part %s: %w", p.ID, err)
+			}
+			packViews[i] = v
+		}
+		return nil
+	})
+	rows, err := s.rotorViews(gctx, parts, ids, strikes, now)
+	if err := cmp.Or(g.Wait(), err); err != nil {
+		return 0, err
+	}
+	for i, v := range packViews {
+		if v != nil {
+			rows[i] = store.HealthRow{ID: v.PartID, Status: v.Status, View: v}
+		}
+	}
+	// In the batch's order, as before: parts of no kind with a view left out.
+	rows = slices.DeleteFunc(rows, func(r store.HealthRow) bool { return r.View == nil })
+	return len(rows), s.DB.SavePartHealths(ctx, rows, now)
+}
+
+// rotorViews computes the views of the batch's motors and propellers, at
+// their index in parts (the other rows left empty).
+func (s *Service) rotorViews(ctx context.Context, parts []*fleet.Part, ids []string, strikes []*fleet.Event, now time.Time) ([]store.HealthRow, error) {
+	rows := make([]store.HealthRow, len(parts))
 	fits, err := s.DB.FitsOf(ctx, ids)
 	if err != nil {
-		return 0, err
+		return nil, err
 	}
 	// As FirstFitted and CurrentFit: the earliest fit's start, the open fit.
 	first, open := map[string]time.Time{}, map[string]*fleet.Fit{}
@@ -117,7 +154,7 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	}
 	runs, err := s.DB.RotorRunsOf(ctx, runIDs, runSince)
 	if err != nil {
-		return 0, err
+		return nil, err
 	}
 	if strikes == nil {
 		// Those naming a part of the batch or on the airframe a propeller
@@ -129,29 +166,30 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 			}
 		}
 		if strikes, err = s.DB.StrikesOf(ctx, airframes, ids); err != nil {
-			return 0, err
+			return nil, err
 		}
 	}
-	now := s.Now().UTC()
-	rows := make([]store.HealthRow, 0, len(parts))
-	for _, p := range parts {
-		v := &View{PartID: p.ID, Kind: p.Kind, Serial: p.Serial, ComputedAt: now, Notes: []string{}}
+	for i, p := range parts {
+		v := newView(p, now)
 		switch p.Kind {
 		case fleet.KindMotor:
 			err = s.motorFrom(ctx, p, first[p.ID], runs[p.ID], now, v)
 		case fleet.KindPropeller:
 			err = s.propellerFrom(open[p.ID], runs[p.ID], propStrikes(p.ID, open[p.ID], strikes), now, v)
-		case fleet.KindPack:
-			err = s.pack(ctx, p, now, nil, v)
 		default:
 			continue
 		}
 		if err != nil {
-			return 0, fmt.Errorf("part %s: %w", p.ID, err)
+			return nil, fmt.Errorf("part %s: %w", p.ID, err)
 		}
-		rows = append(rows, store.HealthRow{ID: p.ID, Status: v.Status, View: v})
+		rows[i] = store.HealthRow{ID: p.ID, Status: v.Status, View: v}
 	}
-	return len(rows), s.DB.SavePartHealths(ctx, rows, now)
+	return rows, nil
+}
+
+// newView is a part's empty view computed at now.
+func newView(p *fleet.Part, now time.Time) *View {
+	return &View{PartID: p.ID, Kind: p.Kind, Serial: p.Serial, ComputedAt: now, Notes: []string{}}
 }
 
 // propStrikes picks the strikes that concern a fitted propeller from every
