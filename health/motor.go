@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"sort"
 	"time"
 
@@ -104,36 +105,33 @@ func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time,
 			m.AISO, set.LifeFactor = *b.LifeFactor, *b.LifeFactor
 		}
 	}
-	var flights []wear.MotorFlight
-	var rpms, thrusts []float64
+	// Sized up front: a motor's history is hundreds of runs, and growing
+	// these slices run by run was a good part of the refresh's allocation.
+	flights := make([]wear.MotorFlight, 0, len(runs))
+	rpms, thrusts := make([]float64, 0, len(runs)), make([]float64, 0, len(runs))
 	skipped := 0
-	spectrum := map[[2]float64]*SpectrumBin{}
+	var spectrum []SpectrumBin // a few rpm bins, found by a scan (a map cost more)
 	for _, r := range runs {
 		bins, err := runBins(r)
 		if err != nil {
 			return err
 		}
 		for _, b := range bins {
-			k := [2]float64{b.RPMLo, b.RPMHi}
-			if spectrum[k] == nil {
-				spectrum[k] = &SpectrumBin{RPMLo: b.RPMLo, RPMHi: b.RPMHi}
+			i := slices.IndexFunc(spectrum, func(x SpectrumBin) bool { return x.RPMLo == b.RPMLo && x.RPMHi == b.RPMHi })
+			if i < 0 {
+				i, spectrum = len(spectrum), append(spectrum, SpectrumBin{RPMLo: b.RPMLo, RPMHi: b.RPMHi})
 			}
-			spectrum[k].Seconds += b.Seconds
-			spectrum[k].Revolutions += b.Revolutions
+			spectrum[i].Seconds += b.Seconds
+			spectrum[i].Revolutions += b.Revolutions
 		}
-		mf := wear.MotorFlight{At: r.TakeoffAt}
-		ok := true
-		for _, b := range bins {
-			if b.MeanThrustN == nil {
-				ok = false // thrust needs the take-off mass; without it the load is unknown
-				break
-			}
-			mf.Bins = append(mf.Bins, wear.SpectrumBin{RPM: (b.RPMLo + b.RPMHi) / 2, Seconds: b.Seconds,
-				Revolutions: b.Revolutions, ThrustN: *b.MeanThrustN})
-		}
-		if !ok {
-			skipped++
+		if slices.ContainsFunc(bins, func(b rpmBin) bool { return b.MeanThrustN == nil }) {
+			skipped++ // thrust needs the take-off mass; without it the load is unknown
 			continue
+		}
+		mf := wear.MotorFlight{At: r.TakeoffAt, Bins: make([]wear.SpectrumBin, len(bins))}
+		for i, b := range bins {
+			mf.Bins[i] = wear.SpectrumBin{RPM: (b.RPMLo + b.RPMHi) / 2, Seconds: b.Seconds,
+				Revolutions: b.Revolutions, ThrustN: *b.MeanThrustN}
 		}
 		flights = append(flights, mf)
 		if r.MeanRPM != nil && r.ThrustMeanN != nil {
@@ -225,11 +223,8 @@ func runBins(r store.RotorRun) ([]rpmBin, error) {
 }
 
 // spectrumOf lists the summed bins in rpm order.
-func spectrumOf(bins map[[2]float64]*SpectrumBin) []SpectrumBin {
-	out := make([]SpectrumBin, 0, len(bins))
-	for _, b := range bins {
-		out = append(out, *b)
-	}
+func spectrumOf(bins []SpectrumBin) []SpectrumBin {
+	out := append(make([]SpectrumBin, 0, len(bins)), bins...)
 	sort.Slice(out, func(i, j int) bool { return out[i].RPMLo < out[j].RPMLo })
 	return out
 }

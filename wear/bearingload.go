@@ -160,16 +160,39 @@ func (m BearingModel) Damage(bins []SpectrumBin) (float64, error) {
 	if err := m.Validate(); err != nil {
 		return 0, err
 	}
+	dm, err := m.damager()
+	if err != nil {
+		return 0, err
+	}
+	return dm.damage(bins)
+}
+
+// damager is what Damage works out once per model (Status sums many
+// flights with one): the model with its defaults, the life exponent and,
+// in relative mode, the reference load and life.
+type damager struct {
+	m               BearingModel
+	exp, pRef, lRef float64
+}
+
+// damager returns the model's damager; m must be valid.
+func (m BearingModel) damager() (damager, error) {
 	m = m.withDefaults()
 	exp, _ := m.Type.LifeExponent() // checked by Validate
 	var pRef, lRef float64
 	if m.C_N == 0 {
 		_, _, pr, err := m.Load(m.Rated.RPM, m.Rated.ThrustN)
 		if err != nil {
-			return 0, err
+			return damager{}, err
 		}
 		pRef, lRef = pr, m.Rated.Hours*60*m.Rated.RPM
 	}
+	return damager{m: m, exp: exp, pRef: pRef, lRef: lRef}, nil
+}
+
+// damage is Damage with the model's figures worked out.
+func (dm damager) damage(bins []SpectrumBin) (float64, error) {
+	m, exp, pRef, lRef := dm.m, dm.exp, dm.pRef, dm.lRef
 	d := 0.0
 	for i, b := range bins {
 		if b.RPM < 0 || b.Seconds < 0 || b.Revolutions < 0 || b.ThrustN < 0 || !finite(b.RPM+b.Seconds+b.Revolutions+b.ThrustN) {
@@ -247,8 +270,12 @@ func (m BearingModel) Status(flights []MotorFlight, now time.Time, window time.D
 	st := BearingStatus{Mode: m.Mode(), Series: make([]BearingPoint, 0, len(fl))}
 	from := now.Add(-window)
 	var recentD, recentH float64
+	dm, err := m.damager()
+	if err != nil {
+		return BearingStatus{}, err
+	}
 	for _, f := range fl {
-		d, err := m.Damage(f.Bins)
+		d, err := dm.damage(f.Bins)
 		if err != nil {
 			return BearingStatus{}, err
 		}
