@@ -95,14 +95,18 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 	if err != nil {
 		return err
 	}
-	flights, err := s.DB.PackFlights(ctx, p.ID)
+	// Its flights, checks, the rules and its swelling reports in one round
+	// trip (open ones only when judging now).
+	swell := store.EventFilter{Kind: "pack_swelling"}
+	if until == nil {
+		open := true
+		swell.Open = &open
+	}
+	rec, err := s.DB.PackRecordsOf(ctx, p.ID, swell, store.Page{Limit: store.MaxPageSize})
 	if err != nil {
 		return err
 	}
-	checks, err := s.DB.PackChecks(ctx, p.ID)
-	if err != nil {
-		return err
-	}
+	flights, checks := rec.Flights, rec.Checks
 	if until != nil {
 		flights = before(flights, *until, func(f store.PackFlight) time.Time { return f.TakeoffAt })
 		checks = before(checks, *until, func(c store.PackCheck) time.Time { return c.At })
@@ -176,10 +180,7 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 	readings := wear.PackReadings{Cycles: cycles}
 
 	perDay := recentCycles / (s.Settings.UtilisationWindow.Hours() / 24)
-	limits, err := s.packLimits(ctx, p)
-	if err != nil {
-		return err
-	}
+	limits := packLimits(rec.Rules, p)
 	// Capacity: the forecast's model when it has one, else the median of the
 	// latest three estimates.
 	if n := len(pv.Capacity); n > 0 {
@@ -273,9 +274,7 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 			break
 		}
 	}
-	if readings.Swollen, err = s.swollen(ctx, p.ID, until); err != nil {
-		return err
-	}
+	readings.Swollen = swollen(rec.Events, until)
 	h := wear.PackStatus(readings, th)
 	v.Status, pv.Reasons = h.Status, h.Reasons
 	if pv.Reasons == nil {
@@ -336,13 +335,9 @@ func cycleDate(now time.Time, cycles float64, at *float64, perDay float64) (*tim
 // apply to one pack.
 type packRuleLimits struct{ soh, ir []float64 }
 
-// packLimits reads the programme's pack rules for p (all pack rules, or
-// those of its part number).
-func (s *Service) packLimits(ctx context.Context, p *fleet.Part) (packRuleLimits, error) {
-	rules, err := s.DB.Rules(ctx)
-	if err != nil {
-		return packRuleLimits{}, err
-	}
+// packLimits picks the programme's pack rules for p (all pack rules, or
+// those of its part number) from every rule.
+func packLimits(rules []*fleet.ServiceRule, p *fleet.Part) packRuleLimits {
 	var out packRuleLimits
 	add := func(list []float64, v *float64) []float64 {
 		if v == nil || slices.Contains(list, *v) {
@@ -357,27 +352,18 @@ func (s *Service) packLimits(ctx context.Context, p *fleet.Part) (packRuleLimits
 		out.soh = add(out.soh, r.SoHBelowPct)
 		out.ir = add(out.ir, r.IRRisePct)
 	}
-	return out, nil
+	return out
 }
 
-// swollen reports an open swelling report on the pack (open at until, when
-// given).
-func (s *Service) swollen(ctx context.Context, partID string, until *time.Time) (bool, error) {
-	f := store.EventFilter{PartID: partID, Kind: "pack_swelling"}
-	if until == nil {
-		open := true
-		f.Open = &open
-	}
-	evs, _, err := s.DB.Events(ctx, f, store.Page{Limit: store.MaxPageSize})
-	if err != nil {
-		return false, err
-	}
+// swollen reports an open swelling report among the pack's (open at until,
+// when given; evs are the open ones when not).
+func swollen(evs []*fleet.Event, until *time.Time) bool {
 	for _, e := range evs {
 		if until == nil || store.OpenAt(e, *until) {
-			return true, nil
+			return true
 		}
 	}
-	return false, nil
+	return false
 }
 
 // before keeps the leading items of a time-ordered list that are earlier

@@ -67,20 +67,31 @@ type EventFilter struct {
 	Open                               *bool // true: unresolved only; false: resolved only
 }
 
+const eventsSQL = `
+	SELECT ` + eventCols + ` FROM events
+	WHERE ($1::uuid IS NULL OR id > $1)
+	  AND ($2::uuid IS NULL OR airframe_id = $2) AND ($3::uuid IS NULL OR part_id = $3)
+	  AND ($4::uuid IS NULL OR flight_id = $4) AND ($5 = '' OR kind = $5)
+	  AND ($6::boolean IS NULL OR (resolved_at IS NULL) = $6)
+	ORDER BY id LIMIT $7`
+
+// eventArgs are eventsSQL's arguments for a filter and a page (one more
+// than the page, to tell whether another follows).
+func eventArgs(f EventFilter, p Page) ([]any, error) {
+	after, err := p.afterID()
+	if err != nil {
+		return nil, err
+	}
+	return []any{after, nilIfEmpty(f.AirframeID), nilIfEmpty(f.PartID), nilIfEmpty(f.FlightID), f.Kind, f.Open, p.Limit + 1}, nil
+}
+
 // Events lists events in id order, one keyset page.
 func (db *DB) Events(ctx context.Context, f EventFilter, p Page) ([]*fleet.Event, string, error) {
-	after, err := p.afterID()
+	args, err := eventArgs(f, p)
 	if err != nil {
 		return nil, "", err
 	}
-	rows, err := db.pool.Query(ctx, `
-		SELECT `+eventCols+` FROM events
-		WHERE ($1::uuid IS NULL OR id > $1)
-		  AND ($2::uuid IS NULL OR airframe_id = $2) AND ($3::uuid IS NULL OR part_id = $3)
-		  AND ($4::uuid IS NULL OR flight_id = $4) AND ($5 = '' OR kind = $5)
-		  AND ($6::boolean IS NULL OR (resolved_at IS NULL) = $6)
-		ORDER BY id LIMIT $7`, after, nilIfEmpty(f.AirframeID), nilIfEmpty(f.PartID), nilIfEmpty(f.FlightID),
-		f.Kind, f.Open, p.Limit+1)
+	rows, err := db.pool.Query(ctx, eventsSQL, args...)
 	if err != nil {
 		return nil, "", translate(err)
 	}

@@ -63,9 +63,11 @@ func (db *DB) Rule(ctx context.Context, id string) (*fleet.ServiceRule, error) {
 	return r, nil
 }
 
+const rulesSQL = `SELECT ` + ruleCols + ` FROM service_rules ORDER BY name`
+
 // Rules lists every rule by name.
 func (db *DB) Rules(ctx context.Context) ([]*fleet.ServiceRule, error) {
-	rows, err := db.pool.Query(ctx, `SELECT `+ruleCols+` FROM service_rules ORDER BY name`)
+	rows, err := db.pool.Query(ctx, rulesSQL)
 	if err != nil {
 		return nil, translate(err)
 	}
