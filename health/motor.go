@@ -195,6 +195,17 @@ func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time,
 	return nil
 }
 
+// relativeMode reports whether motorFrom will weigh the motor against its
+// model's duty: no dynamic rating in its specs (specs that do not decode
+// say no here; motorFrom reports them).
+func relativeMode(p *fleet.Part) bool {
+	var specs fleet.MotorSpecs
+	if err := json.Unmarshal(p.Specs, &specs); err != nil {
+		return false
+	}
+	return specs.Bearing == nil || specs.Bearing.DynamicRatingN == nil || *specs.Bearing.DynamicRatingN == 0
+}
+
 // runBins returns a run's rpm bins: from BinsArray when it was read (the
 // batch), else decoded from the JSON. goccy/go-json decodes these about ten
 // times faster than encoding/json, to the same values

@@ -95,6 +95,21 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	// rotor runs' (results are the same; only the waits overlap).
 	packViews := make([]*View, len(parts))
 	g, gctx := errgroup.WithContext(ctx)
+	// A relative-mode motor weighs its runs against its model's duty, a
+	// fleet-wide median the memo reads once per part number: read beside
+	// the rotor runs rather than after them.
+	if s.duty != nil {
+		seen := map[string]bool{}
+		for _, p := range parts {
+			if p.Kind == fleet.KindMotor && p.PartNumber != "" && !seen[p.PartNumber] && relativeMode(p) {
+				seen[p.PartNumber] = true
+				g.Go(func() error {
+					_, _, _, err := s.modelDuty(gctx, p.PartNumber)
+					return err
+				})
+			}
+		}
+	}
 	g.Go(func() error {
 		for i, p := range parts {
 			if p.Kind != fleet.KindPack {
