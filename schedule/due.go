@@ -57,15 +57,21 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 	now := p.Now().UTC()
 	// Each rule is a few set-based statements; the rules and the notices
 	// run side by side on a bounded pool (one per CPU), so one statement's
-	// wait overlaps another's work. Order is kept: rules in name order,
-	// then notices.
+	// wait overlaps another's work. One airframe's statements are short and
+	// mostly wait on the database, so there four run at once even on two
+	// CPUs (DEVELOPERS.md, after an ingest). Order is kept: rules in name
+	// order, then notices.
 	type result struct {
 		items    []*fleet.DueItem
 		subjects []string
 	}
 	out := make([]result, len(rules)+1)
 	g, gctx := errgroup.WithContext(ctx)
-	g.SetLimit(runtime.GOMAXPROCS(0))
+	limit := runtime.GOMAXPROCS(0)
+	if airframeID != "" {
+		limit = max(limit, 4)
+	}
+	g.SetLimit(limit)
 	for i, r := range rules {
 		if !r.Enabled {
 			continue
