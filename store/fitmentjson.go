@@ -2,10 +2,14 @@ package store
 
 import (
 	"context"
+	"encoding/binary"
 	"encoding/json"
+	"fmt"
 	"sync"
-	"sync/atomic"
 	"time"
+
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/rotorwright/rotorwright/fleet"
 )
@@ -30,45 +34,148 @@ const FitmentJSONSQL = `
 
 // FitmentJSON is Fitment's parts and empty places as JSON arrays in one
 // round trip; the parts come as the database wrote them, never decoded.
+// Both are slices of one allocation. The row is read as it arrives (the
+// fitted kinds and places walked in place, not decoded to strings): it is
+// the whole of the lookup's work, and the API serves it thousands of
+// times a second.
 func (db *DB) FitmentJSON(ctx context.Context, airframeID string, at time.Time) (parts, empty []byte, err error) {
-	var positions []byte
-	var kinds, places []string
-	err = db.pool.QueryRow(ctx, FitmentJSONSQL, airframeID, at).Scan(&positions, &parts, &kinds, &places)
+	rows, err := db.pool.Query(ctx, FitmentJSONSQL, airframeID, at)
 	if err != nil {
-		return nil, nil, translateNotFound(err, "airframe")
+		return nil, nil, translate(err)
+	}
+	defer rows.Close()
+	if !rows.Next() {
+		if err := rows.Err(); err != nil {
+			return nil, nil, translate(err)
+		}
+		return nil, nil, notFound("airframe")
+	}
+	raw, fd := rows.RawValues(), rows.FieldDescriptions()
+	var kbuf, pbuf [16][]byte // a quad has 8 fits, an octo 16: no allocation
+	kinds, err := textArray(fd[2].Format, raw[2], kbuf[:0])
+	if err != nil {
+		return nil, nil, err
+	}
+	places, err := textArray(fd[3].Format, raw[3], pbuf[:0])
+	if err != nil {
+		return nil, nil, err
+	}
+	if len(kinds) != len(places) {
+		return nil, nil, fmt.Errorf("fitment: %d kinds, %d places", len(kinds), len(places))
+	}
+	positions, err := jsonText(fd[0], raw[0])
+	if err != nil {
+		return nil, nil, err
 	}
 	labels, err := layoutLabels(positions)
 	if err != nil {
 		return nil, nil, err
 	}
+	buf := make([]byte, 0, len(raw[1])+2+len(labels)*96)
+	partsJSON, err := jsonText(fd[1], raw[1])
+	if err != nil {
+		return nil, nil, err
+	}
+	buf = append(buf, partsJSON...)
+	n := len(buf)
 	// The empty places as EmptyPlaces lists them: positions in layout
 	// order, motor before propeller at each.
-	empty = append(make([]byte, 0, 256), '[')
+	buf = append(buf, '[')
 	for _, l := range labels {
-		for _, k := range []fleet.PartKind{fleet.KindMotor, fleet.KindPropeller} {
+		for _, k := range [...]fleet.PartKind{fleet.KindMotor, fleet.KindPropeller} {
 			if fittedAt(kinds, places, string(k), l.label) {
 				continue
 			}
-			if len(empty) > 1 {
-				empty = append(empty, ',')
+			if len(buf) > n+1 {
+				buf = append(buf, ',')
 			}
-			empty = append(empty, `{"position":`...)
-			empty = append(empty, l.json...)
-			empty = append(empty, `,"kind":"`...)
-			empty = append(empty, k...)
-			empty = append(empty, `"}`...)
+			buf = append(buf, `{"position":`...)
+			buf = append(buf, l.json...)
+			buf = append(buf, `,"kind":"`...)
+			buf = append(buf, k...)
+			buf = append(buf, `"}`...)
 		}
 	}
-	return parts, append(empty, ']'), nil
+	buf = append(buf, ']')
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, nil, translate(err)
+	}
+	return buf[:n:n], buf[n:], nil
 }
 
-func fittedAt(kinds, places []string, kind, place string) bool {
+func fittedAt(kinds, places [][]byte, kind, place string) bool {
 	for i := range kinds {
-		if kinds[i] == kind && places[i] == place {
+		if string(kinds[i]) == kind && string(places[i]) == place {
 			return true
 		}
 	}
 	return false
+}
+
+// textArray appends the elements of a one-dimensional text[] to out as
+// slices of b, which PostgreSQL sends in binary as array_send writes it
+// (dimensions, a has-nulls flag, the element type, each dimension's length
+// and lower bound, then each element as a length and its bytes). Text
+// format (the simple protocol) is handed to pgx. A NULL is an error: the
+// query coalesces its arrays and aggregates NOT NULL columns.
+func textArray(format int16, b []byte, out [][]byte) ([][]byte, error) {
+	if b == nil {
+		return nil, fmt.Errorf("text array: NULL")
+	}
+	if format != pgtype.BinaryFormatCode {
+		var ss []string
+		if err := pgtype.NewMap().Scan(pgtype.TextArrayOID, format, b, &ss); err != nil {
+			return nil, err
+		}
+		for _, s := range ss {
+			out = append(out, []byte(s))
+		}
+		return out, nil
+	}
+	bad := func(why string) error { return fmt.Errorf("text array: %s", why) }
+	if len(b) < 12 {
+		return nil, bad("short header")
+	}
+	ndim := binary.BigEndian.Uint32(b)
+	if ndim == 0 {
+		return out, nil
+	}
+	if ndim != 1 || len(b) < 20 {
+		return nil, bad(fmt.Sprintf("%d dimensions", ndim))
+	}
+	if oid := binary.BigEndian.Uint32(b[8:]); oid != pgtype.TextOID {
+		return nil, bad(fmt.Sprintf("element type %d", oid))
+	}
+	n := int(binary.BigEndian.Uint32(b[12:]))
+	b = b[20:]
+	for range n {
+		if len(b) < 4 {
+			return nil, bad("short element")
+		}
+		l := int32(binary.BigEndian.Uint32(b))
+		b = b[4:]
+		if l < 0 || int(l) > len(b) {
+			return nil, bad(fmt.Sprintf("element of %d bytes", l))
+		}
+		out, b = append(out, b[:l:l]), b[l:]
+	}
+	if len(b) != 0 {
+		return nil, bad("trailing bytes")
+	}
+	return out, nil
+}
+
+// jsonText is a jsonb column's JSON text: as sent in text format, or after
+// the version byte (1) that starts jsonb's binary format.
+func jsonText(fd pgconn.FieldDescription, b []byte) ([]byte, error) {
+	if fd.Format != pgtype.BinaryFormatCode || fd.DataTypeOID != pgtype.JSONBOID {
+		return b, nil
+	}
+	if len(b) == 0 || b[0] != 1 {
+		return nil, fmt.Errorf("jsonb: unknown binary version")
+	}
+	return b[1:], nil
 }
 
 // label is a layout position's label and its JSON string.
@@ -78,12 +185,20 @@ type label struct {
 }
 
 // labelCache maps a layout's positions, as stored (JSON), to their labels:
-// keyed by the content itself, so an entry never goes stale.
-var labelCache sync.Map // string -> []label
+// keyed by the content itself, so an entry never goes stale. A map under a
+// read lock, not a sync.Map, so that a look-up with the row's bytes
+// allocates nothing.
+var labelCache = struct {
+	sync.RWMutex
+	m map[string][]label
+}{m: map[string][]label{}}
 
 func layoutLabels(positions []byte) ([]label, error) {
-	if v, ok := labelCache.Load(string(positions)); ok {
-		return v.([]label), nil
+	labelCache.RLock()
+	v, ok := labelCache.m[string(positions)]
+	labelCache.RUnlock()
+	if ok {
+		return v, nil
 	}
 	var ps []fleet.Position
 	if err := json.Unmarshal(positions, &ps); err != nil {
@@ -97,12 +212,12 @@ func layoutLabels(positions []byte) ([]label, error) {
 		}
 		out[i] = label{label: p.Label, json: js}
 	}
-	if labelCacheSize.Add(1) <= maxLabelCache { // layouts are few; never grows without bound
-		labelCache.Store(string(positions), out)
+	labelCache.Lock()
+	if len(labelCache.m) < maxLabelCache { // layouts are few; never grows without bound
+		labelCache.m[string(positions)] = out
 	}
+	labelCache.Unlock()
 	return out, nil
 }
 
 const maxLabelCache = 256
-
-var labelCacheSize atomic.Int64
