@@ -34,7 +34,7 @@ func (s *Server) accessLog() gin.HandlerFunc {
 			slog.Int("status", status),
 			slog.Int("bytes", max(c.Writer.Size(), 0)),
 			slog.Float64("duration_ms", float64(time.Since(start).Microseconds())/1000),
-			slog.String("remote", c.ClientIP()),
+			slog.String("remote", clientAddr(c)),
 			slog.String("request_id", c.GetString(ctxRequestID)),
 		}
 		if id := c.GetString(ctxClientRequestID); id != "" {

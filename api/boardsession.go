@@ -80,7 +80,7 @@ func (s *Server) signIn(c *gin.Context) {
 	}
 	// The same per-address lockout as bearer tokens (authenticate): a
 	// pasted token is a guess like any other.
-	addr := c.ClientIP()
+	addr := clientAddr(c)
 	if s.limit.auth != nil {
 		if locked, wait := s.limit.auth.lockedOut(addr); locked {
 			secs := int(math.Ceil(max(wait, time.Second).Seconds()))

@@ -137,11 +137,11 @@ func newLimiters(l Limits) *limiters {
 // liveness probe must always answer).
 func (s *Server) limitAddr() gin.HandlerFunc {
 	return func(c *gin.Context) {
-		if c.Request.URL.Path == "/healthz" {
+		if s.limit.perAddr == nil || c.Request.URL.Path == "/healthz" {
 			c.Next()
 			return
 		}
-		if ok, wait := s.limit.perAddr.allow(c.ClientIP()); !ok {
+		if ok, wait := s.limit.perAddr.allow(clientAddr(c)); !ok {
 			s.fail(c, tooMany("too many requests from this address", wait))
 			return
 		}

@@ -8,7 +8,9 @@ import (
 	"encoding/hex"
 	"log/slog"
 	"net/http"
+	"strconv"
 	"strings"
+	"sync/atomic"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -326,7 +328,19 @@ const (
 	ctxRequestID       = "request_id"
 	ctxClientRequestID = "client_request_id"
 	ctxKey             = "api_key"
+	ctxClientAddr      = "client_addr"
 )
+
+// clientAddr is c.ClientIP(), worked out once per request: the access line,
+// the per-address limit and the authentication lockout all ask for it.
+func clientAddr(c *gin.Context) string {
+	if v, ok := c.Get(ctxClientAddr); ok {
+		return v.(string)
+	}
+	addr := c.ClientIP()
+	c.Set(ctxClientAddr, addr)
+	return addr
+}
 
 // requestID gives every request an id of our own (in X-Request-ID on the
 // response, the logs and the audit log). A client's X-Request-ID is kept
@@ -334,9 +348,7 @@ const (
 // identify a request on its own.
 func (s *Server) requestID() gin.HandlerFunc {
 	return func(c *gin.Context) {
-		b := make([]byte, 8)
-		_, _ = rand.Read(b)
-		id := hex.EncodeToString(b)
+		id := requestIDs.next()
 		c.Set(ctxRequestID, id)
 		c.Header("X-Request-ID", id)
 		if client := c.GetHeader("X-Request-ID"); client != "" {
@@ -354,14 +366,45 @@ func (s *Server) requestID() gin.HandlerFunc {
 	}
 }
 
+// requestIDs numbers the process's requests after a random prefix drawn
+// once at start: 16 hex digits from crypto/rand, a dash and the count in
+// hex. Ids are unique within the process (the counter) and across
+// processes and restarts unless two draw the same 64-bit prefix, far less
+// likely than two of the former per-request random ids colliding, since
+// processes are far fewer than requests. They cannot be guessed before one
+// of the process's ids is seen; they are for correlation, not secrets, and
+// the count tells whoever sees two ids how many requests the process served
+// between them. Drawing 8 bytes from crypto/rand per request was 2-3 % of the
+// process's time in the lookups benchmark.
+var requestIDs = newIDSource()
+
+type idSource struct {
+	prefix [17]byte // 16 hex digits and the dash
+	n      atomic.Uint64
+}
+
+func newIDSource() *idSource {
+	var b [8]byte
+	_, _ = rand.Read(b[:]) // never fails on Linux (crypto/rand panics if the kernel cannot give it)
+	s := &idSource{}
+	hex.Encode(s.prefix[:16], b[:])
+	s.prefix[16] = '-'
+	return s
+}
+
+func (s *idSource) next() string {
+	var b [17 + 16]byte
+	out := strconv.AppendUint(append(b[:0], s.prefix[:]...), s.n.Add(1), 16)
+	return string(out)
+}
+
 // authenticate checks the bearer token on every call and the role the route
 // needs, and sets the audit actor. Keys come from the key cache (a revoked
 // key stops working at once: see keyCache).
 func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 	return func(c *gin.Context) {
-		addr := c.ClientIP()
 		if s.limit.auth != nil {
-			if locked, wait := s.limit.auth.lockedOut(addr); locked {
+			if locked, wait := s.limit.auth.lockedOut(clientAddr(c)); locked {
 				s.fail(c, tooMany("too many failed authentications from this address", wait))
 				return
 			}
@@ -375,7 +418,7 @@ func (s *Server) authenticate(min fleet.Role) gin.HandlerFunc {
 		k, err := s.keys.authenticate(c.Request.Context(), strings.TrimSpace(token))
 		if err != nil {
 			if s.limit.auth != nil && fleet.ErrorCode(err) == fleet.EUNAUTHORIZED {
-				s.limit.auth.failed(addr, s.limit.authWindow)
+				s.limit.auth.failed(clientAddr(c), s.limit.authWindow)
 			}
 			s.fail(c, err)
 			return
