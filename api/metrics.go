@@ -8,6 +8,7 @@ import (
 	"net/http"
 	"strconv"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -28,6 +29,8 @@ type Metrics struct {
 	reg      *prometheus.Registry
 	requests *prometheus.CounterVec
 	duration *prometheus.HistogramVec
+	seriesMu sync.RWMutex
+	resolved map[seriesKey]*requestSeries // see series
 
 	ingests        *prometheus.CounterVec   // outcome
 	ingestRefusals *prometheus.CounterVec   // reason: the problem's code
@@ -54,7 +57,8 @@ var slowBuckets = []float64{.005, .01, .025, .05, .1, .25, .5, 1, 2.5, 5, 10, 30
 
 func newMetrics() *Metrics {
 	m := &Metrics{
-		reg: prometheus.NewRegistry(),
+		reg:      prometheus.NewRegistry(),
+		resolved: map[seriesKey]*requestSeries{},
 		requests: prometheus.NewCounterVec(prometheus.CounterOpts{
 			Name: "rotorwright_http_requests_total", Help: "HTTP requests by route template, method and status code.",
 		}, []string{"method", "route", "code"}),
@@ -238,9 +242,44 @@ func (m *Metrics) observe() gin.HandlerFunc {
 		if !knownMethods[method] {
 			method = "other" // a client may send any method: it must not add a series
 		}
-		m.requests.WithLabelValues(method, route, strconv.Itoa(status)).Inc()
-		m.duration.WithLabelValues(method, route).Observe(time.Since(start).Seconds())
+		rs := m.series(method, route, status)
+		rs.requests.Inc()
+		rs.duration.Observe(time.Since(start).Seconds())
 	}
+}
+
+// seriesKey names one request series: the labels of requests and duration.
+type seriesKey struct {
+	method, route string
+	status        int
+}
+
+// requestSeries are the children of requests and duration for one
+// seriesKey, resolved once: WithLabelValues hashes the labels and formats
+// the status on every call.
+type requestSeries struct {
+	requests prometheus.Counter
+	duration prometheus.Observer
+}
+
+// series returns the request series of one method, route and status,
+// resolving it on first use; the keys are the labels' bounded values.
+func (m *Metrics) series(method, route string, status int) *requestSeries {
+	k := seriesKey{method, route, status}
+	m.seriesMu.RLock()
+	rs := m.resolved[k]
+	m.seriesMu.RUnlock()
+	if rs != nil {
+		return rs
+	}
+	m.seriesMu.Lock()
+	defer m.seriesMu.Unlock()
+	if rs = m.resolved[k]; rs == nil {
+		rs = &requestSeries{requests: m.requests.WithLabelValues(method, route, strconv.Itoa(status)),
+			duration: m.duration.WithLabelValues(method, route)}
+		m.resolved[k] = rs
+	}
+	return rs
 }
 
 // knownMethods are the methods that get their own label.
