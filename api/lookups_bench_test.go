@@ -1,6 +1,7 @@
 package api_test
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -12,6 +13,7 @@ import (
 	"path/filepath"
 	"runtime/pprof"
 	"slices"
+	"strconv"
 	"sync"
 	"sync/atomic"
 	"testing"
@@ -117,7 +119,10 @@ func paired(b *testing.B, ids []string, rng *rand.Rand, chunks, chunk, conc int,
 //	ROTORWRIGHT_TEST_CLUSTER=service go test -bench Lookups -run '^$' -benchtime 1x -count 3 ./api
 //
 // ROTORWRIGHT_LOOKUP_PROFILE=DIR also writes DIR/fitment.pprof and
-// DIR/readiness.pprof, CPU profiles of the HTTP side alone.
+// DIR/readiness.pprof, CPU profiles of the HTTP side alone. After the
+// measured rounds it runs references, not targets: fitment behind a bare
+// net/http handler (what HTTP costs apart from the router) and the old
+// fitment query (the new one must not be heavier).
 func BenchmarkLookups(b *testing.B) {
 	if !pgtest.ServiceSettings() {
 		b.Skip("set " + pgtest.EnvCluster + "=service: the figures must come from the service's cluster settings")
@@ -143,8 +148,8 @@ func BenchmarkLookups(b *testing.B) {
 	srv := httptest.NewServer(api.New(db, log, unlimited(api.DefaultLimits), nil).Handler())
 	defer srv.Close()
 	client := &http.Client{Transport: &http.Transport{MaxIdleConnsPerHost: lookupConc}}
-	get := func(path string) error {
-		req, err := http.NewRequest(http.MethodGet, srv.URL+path, nil)
+	get := func(base, path string) error {
+		req, err := http.NewRequest(http.MethodGet, base+path, nil)
 		if err != nil {
 			return err
 		}
@@ -162,6 +167,8 @@ func BenchmarkLookups(b *testing.B) {
 		}
 		return nil
 	}
+	bare := newBareFitment(b, db, get)
+	defer bare.close()
 	lookups := []lookup{
 		{name: "fitment", chunk: 400,
 			floor: func(ctx context.Context, id string) error {
@@ -175,7 +182,7 @@ func BenchmarkLookups(b *testing.B) {
 				rows.Close()
 				return rows.Err()
 			},
-			http: func(id string) error { return get("/v1/airframes/" + id + "/fitment") }},
+			http: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/fitment") }},
 		{name: "readiness", chunk: 100,
 			floor: func(ctx context.Context, id string) error {
 				// Every statement of the answer in one pipelined batch, each
@@ -198,7 +205,7 @@ func BenchmarkLookups(b *testing.B) {
 				}
 				return br.Close()
 			},
-			http: func(id string) error { return get("/v1/airframes/" + id + "/readiness") }},
+			http: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/readiness") }},
 	}
 	rng := rand.New(rand.NewPCG(3, 4))
 	for b.Loop() {
@@ -244,6 +251,22 @@ func BenchmarkLookups(b *testing.B) {
 				f.Close()
 			}
 		}
+		// What HTTP itself costs here, apart from the router: the same store
+		// call behind a bare net/http handler (no gin, no middleware, no
+		// authentication, no access line) against the same floor, and a
+		// bare handler answering a constant body of the fitment's size with
+		// no query at all. The first is the most any router could reach.
+		fitFloor := func(id string) error { return lookups[0].floor(ctx, id) }
+		bareRatios := make([]float64, 0, rounds)
+		for r := range rounds {
+			fl, ht := paired(b, ids, rng, 10, 400, lookupConc, fitFloor, bare.fitment)
+			_, emp := paired(b, ids, rng, 4, 400, lookupConc, fitFloor, bare.empty)
+			bareRatios = append(bareRatios, ht.rate()/fl.rate())
+			b.Logf("fitment round %d, bare net/http handler: floor %.0f/s, HTTP %.0f/s, ratio %.2f; constant body, no query: %.0f/s",
+				r, fl.rate(), ht.rate(), ht.rate()/fl.rate(), emp.rate())
+		}
+		b.ReportMetric(slices.Min(bareRatios), "fitment-bare-ratio-min")
+		b.ReportMetric(slices.Max(bareRatios), "fitment-bare-ratio-max")
 		// The fitment's SQL writes the whole answer as JSON now; against the
 		// query that left the empty places to Go, so a heavier query cannot
 		// pass for a better ratio unnoticed.
@@ -255,3 +278,48 @@ func BenchmarkLookups(b *testing.B) {
 		b.ReportMetric(now.rate()/old.rate(), "fitment-sql-json-vs-old")
 	}
 }
+
+// bareFitment is the fitment lookup behind a bare net/http handler, and a
+// handler answering a constant body of the same size: the references that
+// show what HTTP costs here apart from the router.
+type bareFitment struct {
+	srv            *httptest.Server
+	fitment, empty func(id string) error
+}
+
+func newBareFitment(b *testing.B, db *store.DB, get func(base, path string) error) *bareFitment {
+	b.Helper()
+	mux := http.NewServeMux()
+	mux.HandleFunc("GET /v1/airframes/{id}/fitment", func(w http.ResponseWriter, r *http.Request) {
+		id, at := r.PathValue("id"), time.Now()
+		parts, empty, err := db.FitmentJSON(r.Context(), id, at)
+		if err != nil {
+			http.Error(w, err.Error(), http.StatusInternalServerError)
+			return
+		}
+		// The envelope getFitment writes.
+		out := make([]byte, 0, 128+len(parts)+len(empty))
+		out = append(out, `{"airframe_id":`...)
+		out = strconv.AppendQuote(out, id)
+		out = append(out, `,"at":"`...)
+		out = at.UTC().AppendFormat(out, time.RFC3339Nano)
+		out = append(out, `","parts":`...)
+		out = append(out, parts...)
+		out = append(out, `,"empty":`...)
+		out = append(out, empty...)
+		out = append(out, '}')
+		w.Header().Set("Content-Type", "application/json; charset=utf-8")
+		_, _ = w.Write(out)
+	})
+	constant := bytes.Repeat([]byte(" "), 1700) // about a quad's fitment
+	mux.HandleFunc("GET /constant/{id}", func(w http.ResponseWriter, r *http.Request) {
+		w.Header().Set("Content-Type", "application/json; charset=utf-8")
+		_, _ = w.Write(constant)
+	})
+	srv := httptest.NewServer(mux)
+	return &bareFitment{srv: srv,
+		fitment: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/fitment") },
+		empty:   func(id string) error { return get(srv.URL, "/constant/"+id) }}
+}
+
+func (bf *bareFitment) close() { bf.srv.Close() }
