@@ -91,9 +91,11 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	}
 	now := s.Now().UTC()
 	// Packs read their own records, nothing the rest of the batch reads:
-	// computed beside it on another connection, so their reads overlap the
-	// rotor runs' (results are the same; only the waits overlap).
-	packViews := make([]*View, len(parts))
+	// computed and stored beside it on another connection, so their reads
+	// and their write overlap the rotor runs' (results are the same; only
+	// the waits overlap). Each view stands alone, so the two writes need
+	// not be one.
+	var packs int
 	g, gctx := errgroup.WithContext(ctx)
 	// A relative-mode motor weighs its runs against its model's duty, a
 	// fleet-wide median the memo reads once per part number: read beside
@@ -111,7 +113,8 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 		}
 	}
 	g.Go(func() error {
-		for i, p := range parts {
+		var rows []store.HealthRow
+		for _, p := range parts {
 			if p.Kind != fleet.KindPack {
 				continue
 			}
@@ -119,22 +122,29 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 			if err := s.pack(gctx, p, now, nil, v); err != nil {
 				return fmt.Errorf("part %s: %w", p.ID, err)
 			}
-			packViews[i] = v
+			rows = append(rows, store.HealthRow{ID: p.ID, Status: v.Status, View: v})
 		}
-		return nil
+		packs = len(rows)
+		return saveViews(gctx, s.DB, rows, now)
 	})
 	rows, err := s.rotorViews(gctx, parts, ids, strikes, now)
+	if err == nil {
+		// In the batch's order: parts of no kind with a view left out.
+		rows = slices.DeleteFunc(rows, func(r store.HealthRow) bool { return r.View == nil })
+		err = saveViews(gctx, s.DB, rows, now)
+	}
 	if err := cmp.Or(g.Wait(), err); err != nil {
 		return 0, err
 	}
-	for i, v := range packViews {
-		if v != nil {
-			rows[i] = store.HealthRow{ID: v.PartID, Status: v.Status, View: v}
-		}
+	return len(rows) + packs, nil
+}
+
+// saveViews stores the rows, if any.
+func saveViews(ctx context.Context, db *store.DB, rows []store.HealthRow, now time.Time) error {
+	if len(rows) == 0 {
+		return nil
 	}
-	// In the batch's order, as before: parts of no kind with a view left out.
-	rows = slices.DeleteFunc(rows, func(r store.HealthRow) bool { return r.View == nil })
-	return len(rows), s.DB.SavePartHealths(ctx, rows, now)
+	return db.SavePartHealths(ctx, rows, now)
 }
 
 // rotorViews computes the views of the batch's motors and propellers, at
