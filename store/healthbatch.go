@@ -7,6 +7,7 @@ import (
 
 	gojson "github.com/goccy/go-json"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/rotorwright/rotorwright/fleet"
 )
@@ -40,7 +41,7 @@ func (db *DB) FitsOf(ctx context.Context, partIDs []string) ([]*fleet.Fit, error
 // float8[] to send element by element.
 func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time) (map[string][]RotorRun, error) {
 	rows, err := db.pool.Query(ctx, `
-		SELECT f.part_id::text, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
+		SELECT f.part_id, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
 			mr.thrust_mean_n, mr.bins_packed
 		FROM unnest($1::uuid[], $2::timestamptz[]) AS q (part_id, since)
 		JOIN fits f ON f.part_id = q.part_id
@@ -52,12 +53,30 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 	}
 	defer rows.Close()
 	out := map[string][]RotorRun{}
+	// Ids and positions repeat (four motors share each flight, every run
+	// its airframe): each is made a string once rather than once a row.
+	ids, positions := map[[16]byte]string{}, map[string]string{}
+	uuid := func(u pgtype.UUID) string {
+		s, ok := ids[u.Bytes]
+		if !ok {
+			s = u.String()
+			ids[u.Bytes] = s
+		}
+		return s
+	}
 	for rows.Next() {
-		var id string
+		var part, flight, airframe pgtype.UUID
 		var m RotorRun
-		if err := rows.Scan(&id, &m.FlightID, &m.TakeoffAt, &m.AirframeID, &m.Position, &m.RunS, &m.Revolutions,
+		if err := rows.Scan(&part, &flight, &m.TakeoffAt, &airframe, nil, &m.RunS, &m.Revolutions,
 			&m.MeanRPM, &m.ThrustMeanN, nil); err != nil {
 			return nil, translate(err)
+		}
+		id := uuid(part)
+		m.FlightID, m.AirframeID = uuid(flight), uuid(airframe)
+		pos := rows.RawValues()[4] // text: its bytes in either format
+		if m.Position = positions[string(pos)]; m.Position == "" {
+			m.Position = string(pos)
+			positions[m.Position] = m.Position
 		}
 		if m.BinsArray, err = packedBins(rows.FieldDescriptions()[9].Format, rows.RawValues()[9]); err != nil {
 			return nil, err

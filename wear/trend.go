@@ -3,6 +3,7 @@ package wear
 import (
 	"math"
 	"slices"
+	"sync"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/internal/selection"
@@ -16,7 +17,17 @@ func TheilSen(x, y []float64) (slope, intercept float64, err error) {
 	if len(x) != len(y) {
 		return 0, 0, fleet.Errorf(fleet.EINVALID, "x and y differ in length (%d, %d)", len(x), len(y))
 	}
-	slopes := make([]float64, 0, len(x)*(len(x)-1)/2)
+	need := len(x) * (len(x) - 1) / 2
+	var slopes []float64
+	if need <= maxKeptSlopes && slopeBuf.TryLock() {
+		defer slopeBuf.Unlock()
+		if cap(slopeBuf.b) < need {
+			slopeBuf.b = make([]float64, 0, need)
+		}
+		slopes = slopeBuf.b[:0]
+	} else {
+		slopes = make([]float64, 0, need)
+	}
 	for i := range x {
 		if !finite(x[i]) || !finite(y[i]) {
 			return 0, 0, fleet.Errorf(fleet.EINVALID, "point %d is not finite", i)
@@ -37,6 +48,19 @@ func TheilSen(x, y []float64) (slope, intercept float64, err error) {
 	}
 	return slope, median(res), nil
 }
+
+// slopeBuf keeps one pairwise-slope buffer between TheilSen calls: a
+// pack's 500 flights make 125,000 slopes, a megabyte that every refresh
+// would otherwise allocate (a sync.Pool lost it at nearly every
+// collection). A call that finds it in use allocates its own.
+var slopeBuf struct {
+	sync.Mutex
+	b []float64
+}
+
+// maxKeptSlopes bounds the kept buffer (8 MB, about 1,400 points): a rare
+// longer series allocates its own rather than pin a larger one.
+const maxKeptSlopes = 1 << 20
 
 // median returns the median of v (the mean of the middle pair for even
 // length); it reorders v. It selects rather than sorts: Theil-Sen takes the
