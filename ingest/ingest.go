@@ -95,10 +95,42 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	if err := in.resolve(ctx, &f, log); err != nil {
 		return Result{}, err
 	}
-	if id, err := in.DB.FlightIDByLog(ctx, f.AirframeID, sha); err == nil {
-		return Result{FlightID: id, Unknown: log.Unknown, ColumnMap: rd.Map}, nil
+	// The flight's transaction begins now, and the stored log (the largest
+	// write) goes in while the analysis runs; when the pool's share for
+	// such transactions is taken (store.LoggedFlightTx), the flight is
+	// written at the end.
+	lf := store.LoggedFlight{Repack: packed != nil, RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown,
+		Samples: log.Rows, Blank: log.Blank, ColumnMap: rd.Map}
+	// The raw log is kept as uploaded: a gzip upload is stored as it came.
+	raw := func() ([]byte, error) {
+		if packed == nil {
+			return req.Log, nil
+		}
+		return packed.wait()
+	}
+	w, err := in.DB.BeginLoggedFlight(ctx, f.AirframeID, sha)
+	if err != nil {
+		return Result{}, err
+	}
+	existing := ""
+	if w != nil {
+		existing = w.Existing
+	} else if id, err := in.DB.FlightIDByLog(ctx, f.AirframeID, sha); err == nil {
+		existing = id
 	} else if fleet.ErrorCode(err) != fleet.ENOTFOUND {
 		return Result{}, err
+	}
+	if existing != "" {
+		return Result{FlightID: existing, Unknown: log.Unknown, ColumnMap: rd.Map}, nil
+	}
+	if w != nil {
+		defer func() {
+			if packed != nil {
+				packed.stop() // first, so that Close need not wait for it
+			}
+			w.Close()
+		}()
+		w.StoreLog(ctx, lf, sha, AnalysisVersion, raw)
 	}
 	facts, err := in.DB.FlightFacts(ctx, f.AirframeID, packIDs(f.Packs))
 	if err != nil {
@@ -119,16 +151,14 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		f.SetVerdict(verdict)
 	}
 	f.Source, f.LogSHA256 = fleet.SourceLog, &sha
-	// The raw log is kept as uploaded: a gzip upload is stored as it came.
-	gz := req.Log
-	if packed != nil {
-		if gz, err = packed.wait(); err != nil {
-			return Result{}, err
-		}
+	lf.Flight, lf.Analysis = &f, a
+	var id string
+	var created bool
+	if w != nil {
+		id, created, err = w.Finish(ctx, &lf)
+	} else if lf.RawGz, err = raw(); err == nil {
+		id, created, err = in.DB.CreateLoggedFlight(ctx, &lf)
 	}
-	id, created, err := in.DB.CreateLoggedFlight(ctx, &store.LoggedFlight{Flight: &f, RawGz: gz, Repack: packed != nil,
-		RawBytes: rd.Bytes, Columns: log.Columns, Unknown: log.Unknown, Samples: log.Rows, Blank: log.Blank, Analysis: a,
-		ColumnMap: rd.Map})
 	if err != nil {
 		return Result{}, err
 	}

@@ -2,19 +2,10 @@ package ingest_test
 
 import (
 	"bytes"
-	"context"
-	"encoding/json"
 	"strings"
 	"testing"
-	"time"
 
-	kgzip "github.com/klauspost/compress/gzip"
-
-	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/ingest"
-	"github.com/rotorwright/rotorwright/internal/pgtest"
-	"github.com/rotorwright/rotorwright/internal/sim"
-	"github.com/rotorwright/rotorwright/store"
 )
 
 // A log the service compressed at upload is marked and later repacked: the
@@ -23,43 +14,15 @@ import (
 // whose stored bytes no longer give back the text recorded at upload is
 // left as it was and reported, the others repacked.
 func TestRepackKeepsTheText(t *testing.T) {
-	ctx := store.WithActor(context.Background(), store.Actor{Name: "test"})
-	db := store.New(pgtest.NewPool(t))
-	in := &ingest.Ingester{DB: db}
-	spec := sim.DefaultSpec(3)
-	spec.DurationS = 300
-	spec.Start = time.Now().Add(-48 * time.Hour).UTC().Truncate(time.Second)
-	_, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: spec.Airframe, Layout: "quad-x", CellsS: 4, PacksPerFlight: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	pk := spec.Packs[0]
-	specs, _ := json.Marshal(map[string]any{"chemistry": "lipo", "cells_s": pk.CellsS, "cells_p": pk.CellsP, "rated_mah": pk.RatedMah})
-	if _, err := db.CreatePart(ctx, &fleet.Part{Kind: fleet.KindPack, Serial: pk.Serial, Specs: specs}); err != nil {
-		t.Fatal(err)
-	}
-	upload := func(hour int, gzip bool) (id string, text []byte) {
+	r := newRig(t)
+	ctx, db := r.ctx, r.db
+	upload := func(hour int, gzip bool) (string, []byte) {
 		t.Helper()
-		s := spec
-		s.Start = spec.Start.Add(time.Duration(hour) * time.Hour)
-		var buf bytes.Buffer
-		if _, err := sim.Generate(s, &buf); err != nil {
-			t.Fatal(err)
+		id, text, err := r.upload(hour, gzip)
+		if err != nil {
+			t.Fatalf("upload at +%dh: %v", hour, err)
 		}
-		text = buf.Bytes()
-		body := text
-		if gzip {
-			var z bytes.Buffer
-			w, _ := kgzip.NewWriterLevel(&z, kgzip.BestCompression)
-			w.Write(text)
-			w.Close()
-			body = z.Bytes()
-		}
-		res, err := in.Ingest(ctx, ingest.Request{Flight: fleet.Flight{Pilot: "test"}, Log: body})
-		if err != nil || !res.Created {
-			t.Fatalf("upload at +%dh: %+v, %v", hour, res, err)
-		}
-		return res.FlightID, text
+		return id, text
 	}
 	stored := func(id string) (gz []byte, marked bool) {
 		t.Helper()

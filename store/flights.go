@@ -56,7 +56,7 @@ func (db *DB) CreateFlight(ctx context.Context, f *fleet.Flight) (*fleet.Flight,
 	var out *fleet.Flight
 	err := db.inTx(ctx, func(tx pgx.Tx) error {
 		var err error
-		if out, err = insertFlight(ctx, tx, f); err != nil {
+		if out, err = insertFlight(ctx, tx, f, newID()); err != nil {
 			return err
 		}
 		return checkSoftware(ctx, tx, out.ID)
@@ -76,7 +76,7 @@ func checkFlightTimes(f *fleet.Flight, now time.Time) error {
 // its verdict says so, and the audit rows in tx. A retired airframe or pack
 // does not refuse it (the flight may predate the retirement, and a flight
 // that happened is a fact): the verdict says so.
-func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Flight, error) {
+func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight, id string) (*fleet.Flight, error) {
 	var known bool
 	err := tx.QueryRow(ctx, `SELECT true FROM airframes WHERE id = $1`, f.AirframeID).Scan(&known)
 	if err == pgx.ErrNoRows {
@@ -94,7 +94,7 @@ func insertFlight(ctx context.Context, tx pgx.Tx, f *fleet.Flight) (*fleet.Fligh
 		INSERT INTO flights (id, airframe_id, job_id, pilot, takeoff_at, landing_at, takeoff_mass_g,
 			site_elevation_m, source, log_sha256, notes, override_reason, readiness_at_takeoff, software)
 		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14) RETURNING `+flightCols,
-		newID(), f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
+		id, f.AirframeID, f.JobID, f.Pilot, f.TakeoffAt, f.LandingAt, f.TakeoffMassG,
 		f.SiteElevationM, f.Source, f.LogSHA256, f.Notes, f.OverrideReason, verdict, f.Software))
 	if err != nil {
 		return nil, err

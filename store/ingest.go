@@ -115,6 +115,20 @@ type LoggedFlight struct {
 	ColumnMap *fleet.ColumnMap
 }
 
+// fillEmpty gives the log's lists and counts their empty values (the
+// columns are NOT NULL).
+func (lf *LoggedFlight) fillEmpty() {
+	if lf.Columns == nil {
+		lf.Columns = []string{}
+	}
+	if lf.Unknown == nil {
+		lf.Unknown = []string{}
+	}
+	if lf.Blank == nil {
+		lf.Blank = map[string]int{}
+	}
+}
+
 // CreateLoggedFlight writes the flight, packs, compressed log, figures, motor
 // runs and detected events in one transaction. The same log for the same
 // airframe returns the existing flight (created false): uploads for one
@@ -128,15 +142,7 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 	if err := checkFlightTimes(f, db.now()); err != nil {
 		return "", false, err
 	}
-	if lf.Columns == nil {
-		lf.Columns = []string{}
-	}
-	if lf.Unknown == nil {
-		lf.Unknown = []string{}
-	}
-	if lf.Blank == nil {
-		lf.Blank = map[string]int{}
-	}
+	lf.fillEmpty()
 	err = db.inTx(ctx, func(tx pgx.Tx) error {
 		if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`, "ingest:"+f.AirframeID); err != nil {
 			return err
@@ -147,22 +153,12 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 		} else if err != pgx.ErrNoRows {
 			return err
 		}
-		out, err := insertFlight(ctx, tx, f)
+		out, err := insertFlight(ctx, tx, f, newID())
 		if err != nil {
 			return err
 		}
 		id, created = out.ID, true
-		var mapID *string
-		var mapVersion *int
-		if lf.ColumnMap != nil {
-			mapID, mapVersion = &lf.ColumnMap.ID, &lf.ColumnMap.Version
-		}
-		if _, err := tx.Exec(ctx, `
-			INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version,
-				column_map_id, column_map_version, blank_cells, repack)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12)`,
-			id, lf.RawGz, lf.RawBytes, *f.LogSHA256, lf.Columns, lf.Unknown, lf.Samples, lf.Analysis.Version,
-			mapID, mapVersion, lf.Blank, lf.Repack); err != nil {
+		if err := insertFlightLog(ctx, tx, id, *f.LogSHA256, lf.Analysis.Version, lf); err != nil {
 			return err
 		}
 		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
@@ -177,6 +173,23 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 		}
 	}
 	return id, created, err
+}
+
+// insertFlightLog writes the stored log's row of flight id (of the text
+// with SHA-256 sha, analysed by the model version).
+func insertFlightLog(ctx context.Context, tx pgx.Tx, id, sha string, version int, lf *LoggedFlight) error {
+	var mapID *string
+	var mapVersion *int
+	if lf.ColumnMap != nil {
+		mapID, mapVersion = &lf.ColumnMap.ID, &lf.ColumnMap.Version
+	}
+	_, err := tx.Exec(ctx, `
+		INSERT INTO flight_logs (flight_id, raw_gz, raw_bytes, sha256, columns, unknown_columns, samples, analysis_version,
+			column_map_id, column_map_version, blank_cells, repack)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12)`,
+		id, lf.RawGz, lf.RawBytes, sha, lf.Columns, lf.Unknown, lf.Samples, version,
+		mapID, mapVersion, lf.Blank, lf.Repack)
+	return err
 }
 
 // writeAnalysis stores the figures of a flight, replacing earlier ones.

@@ -28,6 +28,10 @@ import (
 type DB struct {
 	pool *pgxpool.Pool
 	now  func() time.Time
+	// early bounds the logged-flight transactions begun before their
+	// analysis ends (BeginLoggedFlight), each holding a connection while
+	// the ingest reads through others.
+	early chan struct{}
 }
 
 // Open connects to the database at url. It does not migrate.
@@ -44,7 +48,9 @@ func Open(ctx context.Context, url string) (*DB, error) {
 }
 
 // New wraps an existing pool.
-func New(pool *pgxpool.Pool) *DB { return &DB{pool: pool, now: time.Now} }
+func New(pool *pgxpool.Pool) *DB {
+	return &DB{pool: pool, now: time.Now, early: make(chan struct{}, max(1, pool.Config().MaxConns/2))}
+}
 
 // Pool returns the underlying pool.
 func (db *DB) Pool() *pgxpool.Pool { return db.pool }
@@ -149,12 +155,9 @@ func newID() string { return uuid.Must(uuid.NewV7()).String() }
 func (db *DB) inTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	var err error
 	for attempt := 0; attempt < 3; attempt++ {
-		err = db.tryTx(ctx, fn)
-		var pe *pgconn.PgError
-		if errors.As(err, &pe) && (pe.Code == "40001" || pe.Code == "40P01") {
-			continue
+		if err = db.tryTx(ctx, fn); !retryable(err) {
+			break
 		}
-		break
 	}
 	return translate(err)
 }
@@ -171,6 +174,11 @@ func (db *DB) tryTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	if err := fn(tx); err != nil {
 		return err
 	}
+	return commitWithAudit(ctx, tx, rows)
+}
+
+// commitWithAudit writes the transaction's pending audit rows and commits.
+func commitWithAudit(ctx context.Context, tx pgx.Tx, rows [][]any) error {
 	if len(rows) > 0 {
 		b := &pgx.Batch{}
 		for _, args := range rows {
@@ -181,6 +189,13 @@ func (db *DB) tryTx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 		}
 	}
 	return tx.Commit(ctx)
+}
+
+// retryable is a serialization failure or deadlock: the transaction may
+// succeed if run again.
+func retryable(err error) bool {
+	var pe *pgconn.PgError
+	return errors.As(err, &pe) && (pe.Code == "40001" || pe.Code == "40P01")
 }
 
 // pendingAudit holds, per transaction run by tryTx, the audit rows written
