@@ -1,7 +1,6 @@
 package api
 
 import (
-	"crypto/sha256"
 	"errors"
 	"fmt"
 	"io"
@@ -135,7 +134,6 @@ func (s *Server) uploadFlight(c *gin.Context) {
 	}
 	var in uploadInput
 	var logData []byte
-	var logSum [sha256.Size]byte
 	var haveFlight, gz bool
 	var mapRef string
 	for {
@@ -177,15 +175,13 @@ func (s *Server) uploadFlight(c *gin.Context) {
 				s.fail(c, err)
 				return
 			}
-			// Read once, hashing on the way, into a buffer sized from the
-			// request's length (the part is within it).
-			h := sha256.New()
-			if logData, err = readSized(io.TeeReader(io.LimitReader(part, s.limits.LogBytes+1), h),
+			// Read once into a buffer sized from the request's length (the
+			// part is within it); the ingest hashes it beside the parse.
+			if logData, err = readSized(io.LimitReader(part, s.limits.LogBytes+1),
 				c.Request.ContentLength, s.limits.LogBytes+1); err != nil {
 				s.fail(c, uploadError(err, s.limits))
 				return
 			}
-			h.Sum(logSum[:0])
 			if int64(len(logData)) > s.limits.LogBytes {
 				s.fail(c, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "log",
 					Message: fmt.Sprintf("the log is over %d bytes", s.limits.LogBytes)})
@@ -208,7 +204,7 @@ func (s *Server) uploadFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData, LogSHA256: &logSum,
+	res, err := s.ingest.Ingest(c.Request.Context(), ingest.Request{Flight: *f, Log: logData,
 		Gzip: gz, ColumnMap: mapRef})
 	if err != nil {
 		s.fail(c, err)

@@ -49,8 +49,9 @@ type Ingester struct {
 type Request struct {
 	Flight fleet.Flight
 	Log    []byte
-	// LogSHA256, when set, is the SHA-256 of Log as uploaded, computed
-	// while it was read (the API does); nil: computed here.
+	// LogSHA256, when set, is the SHA-256 of Log as uploaded, when the
+	// caller has it; nil: computed here, beside the parse (the API leaves
+	// it: hashing while the body is read would delay the parse).
 	LogSHA256 *[32]byte
 	// Gzip says the log is gzip-compressed (it is also taken as such when
 	// it starts with gzip's magic bytes).

@@ -43,9 +43,9 @@ func ReadLog(raw []byte, gz bool, lim telemetry.Limits, pick Picker) (*Reading, 
 	return readLog(raw, gz, nil, lim, pick)
 }
 
-// readLog is ReadLog with the SHA-256 of raw when the caller computed it
-// while reading the upload (nil: computed here). A gzip upload's digest is
-// of its text, so a given one is not used for it.
+// readLog is ReadLog with the SHA-256 of raw when the caller has it (nil:
+// computed here, beside the parse). A gzip upload's digest is of its text,
+// so a given one is not used for it.
 func readLog(raw []byte, gz bool, sum *[sha256.Size]byte, lim telemetry.Limits, pick Picker) (*Reading, error) {
 	gz = gz || bytes.HasPrefix(raw, gzipMagic)
 	if !gz {
@@ -53,13 +53,19 @@ func readLog(raw []byte, gz bool, sum *[sha256.Size]byte, lim telemetry.Limits, 
 		if err != nil {
 			return nil, err
 		}
+		// Hashed beside the parse, on another core, rather than before it.
+		var hashed chan [sha256.Size]byte
+		if sum == nil {
+			hashed = make(chan [sha256.Size]byte, 1)
+			go func() { hashed <- sha256.Sum256(raw) }()
+		}
 		l, err := telemetry.ParseMappedBytes(raw, m, lim)
+		if hashed != nil {
+			d := <-hashed
+			sum = &d
+		}
 		if err != nil {
 			return nil, err
-		}
-		if sum == nil {
-			d := sha256.Sum256(raw)
-			sum = &d
 		}
 		return &Reading{Log: l, Map: m, SHA256: hex.EncodeToString(sum[:]), Bytes: int64(len(raw))}, nil
 	}
