@@ -111,11 +111,16 @@ func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time,
 	rpms, thrusts := make([]float64, 0, len(runs)), make([]float64, 0, len(runs))
 	skipped := 0
 	var spectrum []SpectrumBin // a few rpm bins, found by a scan (a map cost more)
+	// One run's bins at a time in scratch; the flights' load spectra cut
+	// from shared blocks (a few runs' worth each), not one allocation a run.
+	var scratch []rpmBin
+	var block []wear.SpectrumBin
 	for _, r := range runs {
-		bins, err := runBins(r)
+		bins, err := runBins(r, scratch)
 		if err != nil {
 			return err
 		}
+		scratch = bins
 		for _, b := range bins {
 			i := slices.IndexFunc(spectrum, func(x SpectrumBin) bool { return x.RPMLo == b.RPMLo && x.RPMHi == b.RPMHi })
 			if i < 0 {
@@ -128,7 +133,12 @@ func (s *Service) motorFrom(ctx context.Context, p *fleet.Part, since time.Time,
 			skipped++ // thrust needs the take-off mass; without it the load is unknown
 			continue
 		}
-		mf := wear.MotorFlight{At: r.TakeoffAt, Bins: make([]wear.SpectrumBin, len(bins))}
+		if cap(block)-len(block) < len(bins) {
+			block = make([]wear.SpectrumBin, 0, max(len(bins), 64*len(bins)))
+		}
+		n := len(block)
+		block = block[:n+len(bins)]
+		mf := wear.MotorFlight{At: r.TakeoffAt, Bins: block[n : n+len(bins) : n+len(bins)]}
 		for i, b := range bins {
 			mf.Bins[i] = wear.SpectrumBin{RPM: (b.RPMLo + b.RPMHi) / 2, Seconds: b.Seconds,
 				Revolutions: b.Revolutions, ThrustN: *b.MeanThrustN}
@@ -207,11 +217,11 @@ func relativeMode(p *fleet.Part) bool {
 }
 
 // runBins returns a run's rpm bins: from BinsArray when it was read (the
-// batch), else decoded from the JSON. goccy/go-json decodes these about ten
+// batch), into scratch's memory, else decoded from the JSON. goccy/go-json decodes these about ten
 // times faster than encoding/json, to the same values
 // (TestBinsDecodeAsStdlib); TestRecomputeMatchesOneByOne holds the array
 // path to the JSON one.
-func runBins(r store.RotorRun) ([]rpmBin, error) {
+func runBins(r store.RotorRun, scratch []rpmBin) ([]rpmBin, error) {
 	if r.BinsArray == nil {
 		var bins []rpmBin
 		return bins, gojson.Unmarshal(r.Bins, &bins)
@@ -220,7 +230,7 @@ func runBins(r store.RotorRun) ([]rpmBin, error) {
 	if len(a)%5 != 0 {
 		return nil, fmt.Errorf("flight %s: %d values in the bins array, not five a bin", r.FlightID, len(a))
 	}
-	bins := make([]rpmBin, len(a)/5)
+	bins := slices.Grow(scratch[:0], len(a)/5)[:len(a)/5]
 	for i := range bins {
 		v := a[5*i : 5*i+5]
 		for _, x := range v[:4] {
