@@ -98,7 +98,7 @@ func (s *Server) createFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	s.afterFlight(ctx, out)
+	s.afterFlight(ctx, out, nil)
 	d, err := s.db.FlightDetail(ctx, out.ID)
 	if err != nil {
 		s.fail(c, err)

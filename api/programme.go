@@ -313,9 +313,9 @@ func (s *Server) partsForecast(c *gin.Context) {
 // afterFlight brings verdicts and due lists up to date after a new flight
 // (see schedule.Programme.AfterFlight); a failure is logged and repaired by
 // the next record reaching those flights and the scheduled recompute.
-func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight) {
+func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) {
 	start := time.Now()
-	err := s.prog.AfterFlight(ctx, f)
+	err := s.prog.AfterFlight(ctx, f, refreshed)
 	s.metrics.recompute("after_flight", start, err)
 	if err != nil {
 		s.log.Error("after a flight", "flight", f.ID, "err", err)

@@ -36,9 +36,11 @@ type Ingester struct {
 	// take-off before it is written (it never refuses it; a flight without a
 	// verdict is judged later, see schedule.Programme.JudgeUnjudged).
 	Judge func(ctx context.Context, f *fleet.Flight) (*fleet.Readiness, error)
-	// After, when set, runs after a new flight is recorded and its health
-	// refreshed (the due-list recompute); its error does not undo the flight.
-	After func(ctx context.Context, f *fleet.Flight) error
+	// After, when set, runs after a new flight is recorded (the re-judging
+	// and the due-list recompute), beside its health refresh: refreshed is
+	// closed once the refresh has ended (the due list reads its views). Its
+	// error does not undo the flight.
+	After func(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) error
 	// HardLandingG overrides the analysis's hard-landing threshold (0: default).
 	HardLandingG float64
 }
@@ -167,16 +169,27 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	if created {
 		res.Verdict = f.ReadinessAtTakeoff
 	}
-	if created && in.Health != nil {
-		// The flight is recorded; a failed refresh is repaired by the next
-		// refresh or a fleet recompute, so it does not fail the upload.
-		res.HealthErr = in.Health.Refresh(ctx, id)
+	if !created {
+		return res, nil
 	}
-	if created && in.After != nil {
-		f.ID = id
-		if err := in.After(ctx, &f); err != nil && res.HealthErr == nil {
-			res.HealthErr = err
+	// The flight is recorded; a failed refresh is repaired by the next
+	// refresh or a fleet recompute, so it does not fail the upload. After
+	// starts beside it and waits for it only where it needs the views.
+	refreshed := make(chan struct{})
+	go func() {
+		defer close(refreshed)
+		if in.Health != nil {
+			res.HealthErr = in.Health.Refresh(ctx, id)
 		}
+	}()
+	var afterErr error
+	if in.After != nil {
+		f.ID = id
+		afterErr = in.After(ctx, &f, refreshed)
+	}
+	<-refreshed
+	if res.HealthErr == nil {
+		res.HealthErr = afterErr
 	}
 	return res, nil
 }

@@ -39,13 +39,19 @@ func (p *Programme) JudgeTakeoff(ctx context.Context, f *fleet.Flight) (*fleet.R
 // flight: it re-judges the flights it reaches back before (a back-filled
 // flight changes what its airframe and packs went through before later
 // take-offs) and recomputes the due list of its airframe and packs and of
-// every airframe whose verdicts changed.
-func (p *Programme) AfterFlight(ctx context.Context, f *fleet.Flight) error {
+// every airframe whose verdicts changed. The re-judging reads records, not
+// stored health views, so it may run beside the flight's health refresh;
+// the recompute reads the views, and waits for refreshed to be closed (nil:
+// already refreshed).
+func (p *Programme) AfterFlight(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) error {
 	packs := make([]string, len(f.Packs))
 	for i, pk := range f.Packs {
 		packs[i] = pk.PartID
 	}
 	r, err := p.RejudgeFrom(ctx, f.AirframeID, packs, f.TakeoffAt)
+	if refreshed != nil {
+		<-refreshed
+	}
 	if _, e := p.RecomputeAirframe(ctx, f.AirframeID, packs); err == nil {
 		err = e
 	}
