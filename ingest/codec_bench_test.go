@@ -43,11 +43,7 @@ func BenchmarkStoredCodec(b *testing.B) {
 	zfast, _ := zstd.NewWriter(nil, zstd.WithEncoderLevel(zstd.SpeedFastest), zstd.WithEncoderConcurrency(1))
 	zdef, _ := zstd.NewWriter(nil, zstd.WithEncoderLevel(zstd.SpeedDefault), zstd.WithEncoderConcurrency(1))
 	zdec, _ := zstd.NewReader(nil, zstd.WithDecoderConcurrency(1))
-	codecs := []struct {
-		name string
-		enc  func([]byte) []byte
-		dec  func([]byte) []byte
-	}{
+	codecs := []codec{
 		{"stdlib-gzip-1", func(p []byte) []byte {
 			var buf bytes.Buffer
 			w, _ := gzip.NewWriterLevel(&buf, gzip.BestSpeed)
@@ -59,39 +55,9 @@ func BenchmarkStoredCodec(b *testing.B) {
 			out, _ := io.ReadAll(r)
 			return out
 		}},
-		{"klauspost-gzip-1", func(p []byte) []byte {
-			var buf bytes.Buffer
-			w, _ := kgzip.NewWriterLevel(&buf, kgzip.BestSpeed)
-			w.Write(p)
-			w.Close()
-			return buf.Bytes()
-		}, func(c []byte) []byte {
-			r, _ := kgzip.NewReader(bytes.NewReader(c))
-			out, _ := io.ReadAll(r)
-			return out
-		}},
-		{"klauspost-gzip-huffman", func(p []byte) []byte {
-			var buf bytes.Buffer
-			w, _ := kgzip.NewWriterLevel(&buf, kgzip.HuffmanOnly)
-			w.Write(p)
-			w.Close()
-			return buf.Bytes()
-		}, func(c []byte) []byte {
-			r, _ := kgzip.NewReader(bytes.NewReader(c))
-			out, _ := io.ReadAll(r)
-			return out
-		}},
-		{"klauspost-gzip-6", func(p []byte) []byte {
-			var buf bytes.Buffer
-			w, _ := kgzip.NewWriterLevel(&buf, 6)
-			w.Write(p)
-			w.Close()
-			return buf.Bytes()
-		}, func(c []byte) []byte {
-			r, _ := kgzip.NewReader(bytes.NewReader(c))
-			out, _ := io.ReadAll(r)
-			return out
-		}},
+		kgz("klauspost-gzip-1", kgzip.BestSpeed),
+		kgz("klauspost-gzip-huffman", kgzip.HuffmanOnly),
+		kgz("klauspost-gzip-6", 6),
 		{"s2", func(p []byte) []byte { return s2.Encode(nil, p) },
 			func(c []byte) []byte { out, _ := s2.Decode(nil, c); return out }},
 		{"zstd-fastest", func(p []byte) []byte { return zfast.EncodeAll(p, nil) },
@@ -130,6 +96,28 @@ func BenchmarkStoredCodec(b *testing.B) {
 		b.ReportMetric(float64(best[i][1])/1e6, c.name+"-decompress-cpu-ms")
 	}
 	b.ReportMetric(float64(len(text))/(1<<20), "log-MB")
+}
+
+// codec is a candidate stored-log codec.
+type codec struct {
+	name string
+	enc  func([]byte) []byte
+	dec  func([]byte) []byte
+}
+
+// kgz is klauspost's gzip at level.
+func kgz(name string, level int) codec {
+	return codec{name, func(p []byte) []byte {
+		var buf bytes.Buffer
+		w, _ := kgzip.NewWriterLevel(&buf, level)
+		w.Write(p)
+		w.Close()
+		return buf.Bytes()
+	}, func(c []byte) []byte {
+		r, _ := kgzip.NewReader(bytes.NewReader(c))
+		out, _ := io.ReadAll(r)
+		return out
+	}}
 }
 
 // cpuTime is the CPU time the process has used.
