@@ -22,24 +22,17 @@ import (
 func TestBinsPackedMatchesArray(t *testing.T) {
 	pool := pgtest.NewPool(t)
 	ctx := context.Background()
-	type bin struct {
-		RPMLo       float64  `json:"rpm_lo"`
-		RPMHi       float64  `json:"rpm_hi"`
-		Seconds     float64  `json:"seconds"`
-		Revolutions float64  `json:"revolutions"`
-		MeanThrustN *float64 `json:"mean_thrust_n"`
-	}
 	f := func(v float64) *float64 { return &v }
-	var bins [][]bin
+	var bins [][]jsonBin
 	for i, x := range []float64{0, 1e-07, 5e-324, 2.2250738585072014e-308, math.MaxFloat64, 0.1,
 		0.30000000000000004, 123456789.12345678, 1e21, 9007199254740993} {
-		bins = append(bins, []bin{{RPMLo: x, RPMHi: float64(i), Seconds: x / 3, Revolutions: x * 0.7, MeanThrustN: f(x)}, {RPMLo: 1, Seconds: x}})
+		bins = append(bins, []jsonBin{{RPMLo: x, RPMHi: float64(i), Seconds: x / 3, Revolutions: x * 0.7, MeanThrustN: f(x)}, {RPMLo: 1, Seconds: x}})
 	}
 	rng := rand.New(rand.NewPCG(3, 4))
 	for range 100 {
-		var b []bin
+		var b []jsonBin
 		for range 6 {
-			b = append(b, bin{RPMLo: rng.Float64() * 1e4, RPMHi: rng.Float64() * 1e4, Seconds: rng.ExpFloat64(),
+			b = append(b, jsonBin{RPMLo: rng.Float64() * 1e4, RPMHi: rng.Float64() * 1e4, Seconds: rng.ExpFloat64(),
 				Revolutions: rng.NormFloat64() * 1e5, MeanThrustN: f(rng.Float64())})
 		}
 		bins = append(bins, b)
