@@ -1,8 +1,11 @@
 package schedule
 
 import (
+	"cmp"
 	"context"
 	"time"
+
+	"golang.org/x/sync/errgroup"
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/store"
@@ -95,15 +98,17 @@ func (tl *timeline) factsAt(ctx context.Context, at time.Time, packIDs []string)
 			f.events = append(f.events, e)
 		}
 	}
+	// The airframe's and its parts' rules, in the order they are judged;
+	// their histories are read first, several at once (each is three
+	// short statements that mostly wait on the database).
+	var jobs []ruleSubject
 	for _, r := range tl.rules {
 		switch {
 		case r.AppliesTo == "airframe":
 			if r.Model != nil && *r.Model != a.Model {
 				continue
 			}
-			if err := tl.judge(ctx, r, tl.subject, at, &f.due); err != nil {
-				return nil, err
-			}
+			jobs = append(jobs, ruleSubject{r, tl.subject})
 		case r.AppliesTo == string(fleet.KindPack):
 			// judged per pack below
 		default:
@@ -111,12 +116,17 @@ func (tl *timeline) factsAt(ctx context.Context, at time.Time, packIDs []string)
 				if string(fs.Kind) != r.AppliesTo || (r.PartNumber != nil && (fs.PartNumber == nil || *fs.PartNumber != *r.PartNumber)) {
 					continue
 				}
-				s := store.Subject{Kind: "part", ID: fs.PartID, Name: fs.Serial, AirframeID: &a.ID, PartNumber: fs.PartNumber,
-					Position: &fs.Position, Start: fs.FirstFitted}
-				if err := tl.judge(ctx, r, s, at, &f.due); err != nil {
-					return nil, err
-				}
+				jobs = append(jobs, ruleSubject{r, store.Subject{Kind: "part", ID: fs.PartID, Name: fs.Serial, AirframeID: &a.ID,
+					PartNumber: fs.PartNumber, Position: &fs.Position, Start: fs.FirstFitted}})
 			}
+		}
+	}
+	if err := tl.preload(ctx, jobs); err != nil {
+		return nil, err
+	}
+	for _, j := range jobs {
+		if err := tl.judge(ctx, j.r, j.s, at, &f.due); err != nil {
+			return nil, err
 		}
 	}
 	for _, id := range packIDs {
@@ -145,6 +155,48 @@ func (tl *timeline) factsAt(ctx context.Context, at time.Time, packIDs []string)
 		}
 	}
 	return f, nil
+}
+
+// ruleSubject is a rule to judge on a subject.
+type ruleSubject struct {
+	r *fleet.ServiceRule
+	s store.Subject
+}
+
+// preload reads the histories of the jobs not read yet, several at a time
+// (Programme.HistoriesAtOnce), into the timeline's cache (judge reads them from there, in order:
+// the verdict is the same as when each is read as it is needed).
+func (tl *timeline) preload(ctx context.Context, jobs []ruleSubject) error {
+	var todo []ruleSubject
+	seen := map[string]bool{}
+	for _, j := range jobs {
+		key := j.r.ID + "/" + j.s.ID
+		if tl.hist[key] == nil && !seen[key] {
+			seen[key] = true
+			todo = append(todo, j)
+		}
+	}
+	atOnce := cmp.Or(tl.p.HistoriesAtOnce, 4)
+	if len(todo) < 2 || atOnce < 2 {
+		return nil
+	}
+	hs := make([]*history, len(todo))
+	g, gctx := errgroup.WithContext(ctx)
+	g.SetLimit(atOnce)
+	for i, j := range todo {
+		g.Go(func() error {
+			var err error
+			hs[i], err = tl.p.load(gctx, j.r, j.s, tl.first, &tl.last)
+			return err
+		})
+	}
+	if err := g.Wait(); err != nil {
+		return err
+	}
+	for i, j := range todo {
+		tl.hist[j.r.ID+"/"+j.s.ID] = hs[i]
+	}
+	return nil
 }
 
 // judge applies a rule to a subject at the moment at, reading the

@@ -1,6 +1,7 @@
 package schedule_test
 
 import (
+	"reflect"
 	"slices"
 	"testing"
 	"time"
@@ -104,6 +105,40 @@ func TestReadinessAtPastMoments(t *testing.T) {
 		got := slices.ContainsFunc(b.at(a, c.at).Blockers, func(it fleet.ReadinessItem) bool { return it.Code == fleet.ReadyAirframeHeld })
 		if got != c.held {
 			t.Errorf("held at %v: %v, want %v", c.at, got, c.held)
+		}
+	}
+}
+
+// A verdict reads its rules' histories ahead, several at once; the answer
+// is the one read history by history as each rule is judged: the default
+// programme on a quad with its packs, at moments before, between and after
+// its flights, work records and an event.
+func TestReadinessAtSameWithHistoriesReadAhead(t *testing.T) {
+	b := newBench(t, true)
+	a := b.airframe("RA-01", "model-ra")
+	b.fullQuad(a, b.ago(90*day), 12000, "PR-RA")
+	pk, pk2 := b.pack(4, ""), b.pack(4, "")
+	for d := 80; d > 0; d -= 8 {
+		b.flight(a, b.ago(time.Duration(d)*day), 25*time.Minute, pk)
+	}
+	b.flight(a, b.ago(3*day), 18*time.Minute, pk2)
+	b.work(fleet.WorkRecord{At: b.ago(30 * day), AirframeID: &a.ID, Action: "inspect"})
+	b.event("hard_landing", a, nil, b.ago(20*day))
+	for _, d := range []time.Duration{85 * day, 41 * day, 20*day + time.Hour, 2 * day, 0} {
+		at := b.ago(d)
+		one := *b.p
+		one.HistoriesAtOnce = 1
+		alone, err := one.ReadinessAt(b.ctx, a.ID, []string{pk.ID, pk2.ID}, at)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ahead, err := b.p.ReadinessAt(b.ctx, a.ID, []string{pk.ID, pk2.ID}, at)
+		if err != nil {
+			t.Fatal(err)
+		}
+		alone.CheckedAt, ahead.CheckedAt = time.Time{}, time.Time{}
+		if !reflect.DeepEqual(alone, ahead) {
+			t.Errorf("%v ago: read ahead %+v\nread one by one %+v", d, ahead, alone)
 		}
 	}
 }

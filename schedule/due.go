@@ -23,6 +23,9 @@ type Programme struct {
 	// Notify, when set, is called for each status change inside the
 	// transaction that writes the due list (the outbox).
 	Notify store.DueChange
+	// HistoriesAtOnce is how many rule histories a verdict as of a moment
+	// reads ahead at once (0: 4; 1: none ahead, each as its rule is judged).
+	HistoriesAtOnce int
 }
 
 // NewProgramme returns a programme over the store with default settings.
