@@ -44,10 +44,9 @@ func TestCompressIsStandardGzip(t *testing.T) {
 	}
 }
 
-// The digest computed while an upload was read is used as it is (the API's
-// reading hashes; the text is not hashed twice), and equals the one ReadLog
-// computes itself.
-func TestReadLogUsesGivenDigest(t *testing.T) {
+// A log's digest is the SHA-256 of its text (taken beside the parse), for a
+// gzip upload too.
+func TestReadLogDigestIsOfTheText(t *testing.T) {
 	text := []byte("t_s,pack_v,pack_a\n0,25,1\n1,25,1\n")
 	own, err := ReadLog(text, false, telemetry.Limits{}, native)
 	if err != nil {
@@ -56,17 +55,9 @@ func TestReadLogUsesGivenDigest(t *testing.T) {
 	if want := sha256.Sum256(text); own.SHA256 != hex.EncodeToString(want[:]) {
 		t.Fatalf("ReadLog digest %s", own.SHA256)
 	}
-	marker := [sha256.Size]byte{1, 2, 3}
-	given, err := readLog(text, false, &marker, telemetry.Limits{}, native)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if given.SHA256 != hex.EncodeToString(marker[:]) {
-		t.Fatalf("the given digest is not used: %s", given.SHA256)
-	}
 	// A gzip upload's digest is of its text, not of the bytes sent.
 	z, _ := compress(text, nil)
-	gz, err := readLog(z, false, &marker, telemetry.Limits{}, native)
+	gz, err := ReadLog(z, false, telemetry.Limits{}, native)
 	if err != nil || gz.SHA256 != own.SHA256 {
 		t.Fatalf("gzip upload digest %s (%v), want the text's %s", gz.SHA256, err, own.SHA256)
 	}

@@ -51,10 +51,6 @@ type Ingester struct {
 type Request struct {
 	Flight fleet.Flight
 	Log    []byte
-	// LogSHA256, when set, is the SHA-256 of Log as uploaded, when the
-	// caller has it; nil: computed here, beside the parse (the API leaves
-	// it: hashing while the body is read would delay the parse).
-	LogSHA256 *[32]byte
 	// Gzip says the log is gzip-compressed (it is also taken as such when
 	// it starts with gzip's magic bytes).
 	Gzip bool
@@ -89,7 +85,7 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		packed = startCompress(req.Log)
 		defer packed.stop()
 	}
-	rd, err := readLog(req.Log, req.Gzip, req.LogSHA256, in.Limits, in.Picker(ctx, req.ColumnMap))
+	rd, err := ReadLog(req.Log, req.Gzip, in.Limits, in.Picker(ctx, req.ColumnMap))
 	if err != nil {
 		return Result{}, err
 	}

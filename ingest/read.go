@@ -38,32 +38,19 @@ var gzipMagic = []byte{0x1f, 0x8b}
 // starts with gzip's magic bytes (no CSV text does), decompressed as it is
 // parsed so the row and byte limits apply to the text and a small upload
 // that inflates past them is refused without inflating the rest; then read
-// through the map pick chooses.
+// through the map pick chooses. A plain log is hashed beside its parse, on
+// another core, rather than before it.
 func ReadLog(raw []byte, gz bool, lim telemetry.Limits, pick Picker) (*Reading, error) {
-	return readLog(raw, gz, nil, lim, pick)
-}
-
-// readLog is ReadLog with the SHA-256 of raw when the caller has it (nil:
-// computed here, beside the parse). A gzip upload's digest is of its text,
-// so a given one is not used for it.
-func readLog(raw []byte, gz bool, sum *[sha256.Size]byte, lim telemetry.Limits, pick Picker) (*Reading, error) {
 	gz = gz || bytes.HasPrefix(raw, gzipMagic)
 	if !gz {
 		m, err := pick(raw[:min(len(raw), telemetry.DetectBytes)])
 		if err != nil {
 			return nil, err
 		}
-		// Hashed beside the parse, on another core, rather than before it.
-		var hashed chan [sha256.Size]byte
-		if sum == nil {
-			hashed = make(chan [sha256.Size]byte, 1)
-			go func() { hashed <- sha256.Sum256(raw) }()
-		}
+		hashed := make(chan [sha256.Size]byte, 1)
+		go func() { hashed <- sha256.Sum256(raw) }()
 		l, err := telemetry.ParseMappedBytes(raw, m, lim)
-		if hashed != nil {
-			d := <-hashed
-			sum = &d
-		}
+		sum := <-hashed
 		if err != nil {
 			return nil, err
 		}

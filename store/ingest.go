@@ -144,10 +144,10 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 	}
 	lf.fillEmpty()
 	err = db.inTx(ctx, func(tx pgx.Tx) error {
-		if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`, "ingest:"+f.AirframeID); err != nil {
+		if _, err := tx.Exec(ctx, uploadLockSQL, "ingest:"+f.AirframeID); err != nil {
 			return err
 		}
-		err := tx.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, f.AirframeID, f.LogSHA256).Scan(&id)
+		err := tx.QueryRow(ctx, flightByLogSQL, f.AirframeID, f.LogSHA256).Scan(&id)
 		if err == nil {
 			return nil
 		} else if err != pgx.ErrNoRows {
@@ -163,16 +163,31 @@ func (db *DB) CreateLoggedFlight(ctx context.Context, lf *LoggedFlight) (id stri
 		}
 		return writeAnalysis(ctx, tx, id, f.AirframeID, lf.Analysis)
 	})
-	var pe *pgconn.PgError
-	if errors.As(err, &pe) || fleet.ErrorCode(err) == fleet.ECONFLICT {
-		// A racing upload of the same log that slipped past the lock (it cannot
-		// here, but the constraint is the rule): answer with the existing flight.
-		if e := db.pool.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`,
-			f.AirframeID, f.LogSHA256).Scan(&id); e == nil {
-			return id, false, nil
-		}
+	if existing, ok := db.recordedBefore(ctx, f, err); ok {
+		return existing, false, nil
 	}
 	return id, created, err
+}
+
+// uploadLockSQL serialises the uploads of one airframe (the key is
+// "ingest:" and its id) until the transaction ends.
+const uploadLockSQL = `SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`
+
+// flightByLogSQL finds the flight of an airframe ($1) recorded from the log
+// whose text has SHA-256 $2.
+const flightByLogSQL = `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`
+
+// recordedBefore answers a logged flight's write that failed on a database
+// error or a conflict with the flight already recorded from the same log, if
+// there is one: a racing upload of the same log that slipped past the lock
+// (it cannot, but the unique key is the rule).
+func (db *DB) recordedBefore(ctx context.Context, f *fleet.Flight, err error) (string, bool) {
+	var pe *pgconn.PgError
+	if f.LogSHA256 == nil || !errors.As(err, &pe) && fleet.ErrorCode(err) != fleet.ECONFLICT {
+		return "", false
+	}
+	id, e := db.FlightIDByLog(ctx, f.AirframeID, *f.LogSHA256)
+	return id, e == nil
 }
 
 // insertFlightLog writes the stored log's row of flight id (of the text
@@ -465,7 +480,7 @@ func prefixed(p, cols string) string {
 // this sha256.
 func (db *DB) FlightIDByLog(ctx context.Context, airframeID, sha string) (string, error) {
 	var id string
-	err := db.pool.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, airframeID, sha).Scan(&id)
+	err := db.pool.QueryRow(ctx, flightByLogSQL, airframeID, sha).Scan(&id)
 	if err != nil {
 		return "", translateNotFound(err, "flight")
 	}

@@ -2,12 +2,8 @@ package store
 
 import (
 	"context"
-	"errors"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgconn"
-
-	"github.com/rotorwright/rotorwright/fleet"
 )
 
 // LoggedFlightTx writes a logged flight in one transaction, as
@@ -62,13 +58,7 @@ func (db *DB) BeginLoggedFlight(ctx context.Context, airframeID, sha string) (*L
 	pendingAudit.Store(tx, &rows)
 	b := &pgx.Batch{}
 	b.Queue(`SET CONSTRAINTS flight_logs_flight_id_fkey DEFERRED`)
-	b.Queue(`SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, airframeID, sha).
-		QueryRow(func(r pgx.Row) error {
-			if err := r.Scan(&w.Existing); err != nil && err != pgx.ErrNoRows {
-				return err
-			}
-			return nil
-		})
+	b.Queue(flightByLogSQL, airframeID, sha).QueryRow(w.scanExisting)
 	if err := tx.SendBatch(ctx, b).Close(); err != nil {
 		w.Close()
 		return nil, translate(err)
@@ -131,27 +121,25 @@ func (w *LoggedFlightTx) Finish(ctx context.Context, lf *LoggedFlight) (id strin
 		return w.db.CreateLoggedFlight(ctx, lf)
 	}
 	err = translate(err)
-	var pe *pgconn.PgError
-	if errors.As(err, &pe) || fleet.ErrorCode(err) == fleet.ECONFLICT {
-		if e := w.db.pool.QueryRow(ctx, `SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`,
-			f.AirframeID, f.LogSHA256).Scan(&id); e == nil {
-			return id, false, nil
-		}
+	if existing, ok := w.db.recordedBefore(ctx, f, err); ok {
+		return existing, false, nil
 	}
 	return "", false, err
+}
+
+// scanExisting reads the flight already recorded from the log, if any.
+func (w *LoggedFlightTx) scanExisting(r pgx.Row) error {
+	if err := r.Scan(&w.Existing); err != nil && err != pgx.ErrNoRows {
+		return err
+	}
+	return nil
 }
 
 func (w *LoggedFlightTx) finish(ctx context.Context, lf *LoggedFlight) error {
 	f := lf.Flight
 	b := &pgx.Batch{}
-	b.Queue(`SELECT pg_advisory_xact_lock(hashtextextended($1, 0))`, "ingest:"+f.AirframeID)
-	b.Queue(`SELECT id FROM flights WHERE airframe_id = $1 AND log_sha256 = $2`, f.AirframeID, f.LogSHA256).
-		QueryRow(func(r pgx.Row) error {
-			if err := r.Scan(&w.Existing); err != nil && err != pgx.ErrNoRows {
-				return err
-			}
-			return nil
-		})
+	b.Queue(uploadLockSQL, "ingest:"+f.AirframeID)
+	b.Queue(flightByLogSQL, f.AirframeID, f.LogSHA256).QueryRow(w.scanExisting)
 	if err := w.tx.SendBatch(ctx, b).Close(); err != nil || w.Existing != "" {
 		return err // a flight from the same log got in first: nothing to write
 	}
