@@ -10,6 +10,7 @@ import (
 	"github.com/gin-gonic/gin"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -313,9 +314,9 @@ func (s *Server) partsForecast(c *gin.Context) {
 // afterFlight brings verdicts and due lists up to date after a new flight
 // (see schedule.Programme.AfterFlight); a failure is logged and repaired by
 // the next record reaching those flights and the scheduled recompute.
-func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) {
+func (s *Server) afterFlight(ctx context.Context, f *fleet.Flight, fresh *health.Refreshing) {
 	start := time.Now()
-	err := s.prog.AfterFlight(ctx, f, refreshed)
+	err := s.prog.AfterFlight(ctx, f, fresh)
 	s.metrics.recompute("after_flight", start, err)
 	if err != nil {
 		s.log.Error("after a flight", "flight", f.ID, "err", err)

@@ -249,8 +249,8 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 	s.metrics.reg.MustRegister(s.figures, newPoolStats(db.Pool()))
 	s.ingest = &ingest.Ingester{DB: db, Health: hs, Judge: s.prog.JudgeTakeoff,
 		Limits: telemetry.Limits{MaxRows: limits.LogRows, MaxBytes: limits.LogBytes},
-		After: func(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) error {
-			s.afterFlight(ctx, f, refreshed)
+		After: func(ctx context.Context, f *fleet.Flight, fresh *health.Refreshing) error {
+			s.afterFlight(ctx, f, fresh)
 			return nil
 		}}
 	gin.SetMode(gin.ReleaseMode)

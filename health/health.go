@@ -39,12 +39,16 @@ type Settings struct {
 	TrendLimitPct float64
 	// EOLFraction is the end-of-life state of health (default 0.8).
 	EOLFraction float64
+	// DutyMaxAge is how old a stored reference duty of a motor model may be
+	// for a refresh to use it (default 1 hour; the fleet recompute, every
+	// 15 minutes by default, stores a new one); 0 reads it live every time.
+	DutyMaxAge time.Duration
 }
 
 // DefaultSettings are the defaults above.
 func DefaultSettings() Settings {
 	return Settings{UtilisationWindow: 30 * 24 * time.Hour, RatedBearingHours: 500, BalanceGrade: 6.3,
-		RotorMassKg: 0.04, TrendFlights: 20, TrendLimitPct: 10, EOLFraction: 0.8}
+		RotorMassKg: 0.04, TrendFlights: 20, TrendLimitPct: 10, EOLFraction: 0.8, DutyMaxAge: time.Hour}
 }
 
 // Service computes and stores health views.
@@ -52,7 +56,8 @@ type Service struct {
 	DB       *store.DB
 	Settings Settings
 	Now      func() time.Time
-	duty     *dutyMemo // set for one run over many motors (withDutyMemo)
+	duty     *dutyMemo   // set for one run over many motors (withDutyMemo)
+	stored   *Refreshing // set for a refresh whose views are kept (StartRefresh)
 }
 
 // New returns a service with the default settings and the wall clock.
@@ -132,7 +137,7 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 		_, err := s.Airframe(gctx, f.AirframeID)
 		return err
 	})
-	_, err = s.withDutyMemo().partBatch(gctx, parts, nil)
+	_, err = s.withDutyMemo(false).partBatch(gctx, parts, nil)
 	return cmp.Or(g.Wait(), err)
 }
 

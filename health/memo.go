@@ -12,6 +12,7 @@ import (
 type dutyMemo struct {
 	mu   sync.Mutex
 	byPN map[string]*dutyEntry
+	live bool // read every model's duty live (the fleet recompute)
 }
 
 type dutyEntry struct {
@@ -22,17 +23,20 @@ type dutyEntry struct {
 }
 
 // withDutyMemo returns a copy of the service that reads each model's duty
-// once; used for one run, so a later run sees new flights.
-func (s *Service) withDutyMemo() *Service {
+// once; used for one run, so a later run sees new flights. live reads each
+// from the runs and stores it (the fleet recompute); otherwise the stored
+// one serves while recent (referenceDuty).
+func (s *Service) withDutyMemo(live bool) *Service {
 	c := *s
-	c.duty = &dutyMemo{byPN: map[string]*dutyEntry{}}
+	c.duty = &dutyMemo{byPN: map[string]*dutyEntry{}, live: live}
 	return &c
 }
 
-// modelDuty is store.ModelDuty, read once per part number when memoised.
+// modelDuty is the model's reference duty (referenceDuty), read once per
+// part number when memoised.
 func (s *Service) modelDuty(ctx context.Context, partNumber string) (rpm, thrustN float64, ok bool, err error) {
 	if s.duty == nil {
-		return s.DB.ModelDuty(ctx, partNumber)
+		return s.referenceDuty(ctx, partNumber, false)
 	}
 	s.duty.mu.Lock()
 	e := s.duty.byPN[partNumber]
@@ -41,6 +45,25 @@ func (s *Service) modelDuty(ctx context.Context, partNumber string) (rpm, thrust
 		s.duty.byPN[partNumber] = e
 	}
 	s.duty.mu.Unlock()
-	e.once.Do(func() { e.rpm, e.thrust, e.ok, e.err = s.DB.ModelDuty(ctx, partNumber) })
+	e.once.Do(func() { e.rpm, e.thrust, e.ok, e.err = s.referenceDuty(ctx, partNumber, s.duty.live) })
 	return e.rpm, e.thrust, e.ok, e.err
+}
+
+// referenceDuty is the model's reference duty. Read live it joins every
+// logged run of the model in the fleet, which grows with the fleet and
+// moves little from one flight to the next; so, unless live, the one a
+// fleet recompute (or an earlier read) stored serves while it is younger
+// than Settings.DutyMaxAge. A live read is stored. A model with no run
+// giving both figures is read live each time (nothing is stored for it).
+func (s *Service) referenceDuty(ctx context.Context, partNumber string, live bool) (rpm, thrustN float64, ok bool, err error) {
+	now := s.Now().UTC()
+	if !live && s.Settings.DutyMaxAge > 0 {
+		if rpm, thrustN, ok, err = s.DB.StoredModelDuty(ctx, partNumber, now.Add(-s.Settings.DutyMaxAge)); ok || err != nil {
+			return rpm, thrustN, ok, err
+		}
+	}
+	if rpm, thrustN, ok, err = s.DB.ModelDuty(ctx, partNumber); err != nil || !ok {
+		return rpm, thrustN, ok, err
+	}
+	return rpm, thrustN, true, s.DB.SaveModelDuty(ctx, partNumber, rpm, thrustN, now)
 }

@@ -52,7 +52,7 @@ func (s *Service) Recompute(ctx context.Context, progress func(done, total int))
 			progress(int(d), total)
 		}
 	}
-	run := s.withDutyMemo()
+	run := s.withDutyMemo(true)
 	g, gctx := errgroup.WithContext(ctx)
 	g.SetLimit(runtime.GOMAXPROCS(0))
 	for chunk := range slices.Chunk(parts, recomputeBatch) {
@@ -125,13 +125,13 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 			rows = append(rows, store.HealthRow{ID: p.ID, Status: v.Status, View: v})
 		}
 		packs = len(rows)
-		return saveViews(gctx, s.DB, rows, now)
+		return s.saveViews(gctx, rows, now)
 	})
 	rows, err := s.rotorViews(gctx, parts, ids, strikes, now)
 	if err == nil {
 		// In the batch's order: parts of no kind with a view left out.
 		rows = slices.DeleteFunc(rows, func(r store.HealthRow) bool { return r.View == nil })
-		err = saveViews(gctx, s.DB, rows, now)
+		err = s.saveViews(gctx, rows, now)
 	}
 	if err := cmp.Or(g.Wait(), err); err != nil {
 		return 0, err
@@ -139,12 +139,24 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	return len(rows) + packs, nil
 }
 
-// saveViews stores the rows, if any.
-func saveViews(ctx context.Context, db *store.DB, rows []store.HealthRow, now time.Time) error {
+// saveViews stores the rows, if any, keeping them when the refresh's views
+// are kept.
+func (s *Service) saveViews(ctx context.Context, rows []store.HealthRow, now time.Time) error {
 	if len(rows) == 0 {
 		return nil
 	}
-	return db.SavePartHealths(ctx, rows, now)
+	if s.stored != nil {
+		if err := marshalRows(rows); err != nil {
+			return err
+		}
+	}
+	if err := s.DB.SavePartHealths(ctx, rows, now); err != nil {
+		return err
+	}
+	if s.stored != nil {
+		s.stored.keep(s.stored.parts, rows)
+	}
+	return nil
 }
 
 // rotorViews computes the views of the batch's motors and propellers, at
@@ -169,15 +181,16 @@ func (s *Service) rotorViews(ctx context.Context, parts []*fleet.Part, ids []str
 	// since its open fit.
 	var runIDs []string
 	var runSince []time.Time
+	var withBins []bool
 	for _, p := range parts {
 		switch {
 		case p.Kind == fleet.KindMotor:
-			runIDs, runSince = append(runIDs, p.ID), append(runSince, first[p.ID])
+			runIDs, runSince, withBins = append(runIDs, p.ID), append(runSince, first[p.ID]), append(withBins, true)
 		case p.Kind == fleet.KindPropeller && open[p.ID] != nil:
-			runIDs, runSince = append(runIDs, p.ID), append(runSince, open[p.ID].FittedAt)
+			runIDs, runSince, withBins = append(runIDs, p.ID), append(runSince, open[p.ID].FittedAt), append(withBins, false)
 		}
 	}
-	runs, err := s.DB.RotorRunsOf(ctx, runIDs, runSince)
+	runs, err := s.DB.RotorRunsOf(ctx, runIDs, runSince, withBins)
 	if err != nil {
 		return nil, err
 	}

@@ -37,10 +37,10 @@ type Ingester struct {
 	// verdict is judged later, see schedule.Programme.JudgeUnjudged).
 	Judge func(ctx context.Context, f *fleet.Flight) (*fleet.Readiness, error)
 	// After, when set, runs after a new flight is recorded (the re-judging
-	// and the due-list recompute), beside its health refresh: refreshed is
-	// closed once the refresh has ended (the due list reads its views). Its
+	// and the due-list recompute), beside its health refresh (fresh, nil
+	// without Health; the due list takes its views once it has ended). Its
 	// error does not undo the flight.
-	After func(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) error
+	After func(ctx context.Context, f *fleet.Flight, fresh *health.Refreshing) error
 	// HardLandingG overrides the analysis's hard-landing threshold (0: default).
 	HardLandingG float64
 }
@@ -171,19 +171,19 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	// The flight is recorded; a failed refresh is repaired by the next
 	// refresh or a fleet recompute, so it does not fail the upload. After
 	// starts beside it and waits for it only where it needs the views.
-	refreshed := make(chan struct{})
-	go func() {
-		defer close(refreshed)
-		if in.Health != nil {
-			res.HealthErr = in.Health.Refresh(ctx, id)
-		}
-	}()
+	var fresh *health.Refreshing
+	if in.Health != nil {
+		fresh = in.Health.StartRefresh(ctx, id)
+	}
 	var afterErr error
 	if in.After != nil {
 		f.ID = id
-		afterErr = in.After(ctx, &f, refreshed)
+		afterErr = in.After(ctx, &f, fresh)
 	}
-	<-refreshed
+	if fresh != nil {
+		<-fresh.Done()
+		res.HealthErr = fresh.Err()
+	}
 	if res.HealthErr == nil {
 		res.HealthErr = afterErr
 	}

@@ -36,7 +36,17 @@ func NewProgramme(db *store.DB, hs *health.Service) *Programme {
 // RecomputeAirframe rewrites the due items of one airframe, its fitted
 // parts and the given packs (e.g. those of a flight just recorded).
 func (p *Programme) RecomputeAirframe(ctx context.Context, airframeID string, packs []string) (int, error) {
-	items, subjects, err := p.compute(ctx, airframeID, packs)
+	return p.RecomputeAirframeBeside(ctx, airframeID, packs, nil)
+}
+
+// RecomputeAirframeBeside is RecomputeAirframe started beside a health
+// refresh of the same airframe (nil: none under way): the rules' sums and
+// events are read at once, and a rule takes the health views only once the
+// refresh has ended, those it stored from it and the rest from the store,
+// so the list is the one computed after the refresh, and most of its
+// statements overlap it.
+func (p *Programme) RecomputeAirframeBeside(ctx context.Context, airframeID string, packs []string, fresh *health.Refreshing) (int, error) {
+	items, subjects, err := p.compute(ctx, airframeID, packs, fresh)
 	if err != nil {
 		return 0, err
 	}
@@ -45,14 +55,14 @@ func (p *Programme) RecomputeAirframe(ctx context.Context, airframeID string, pa
 
 // RecomputeFleet rewrites the whole due list in one transaction.
 func (p *Programme) RecomputeFleet(ctx context.Context) (int, error) {
-	items, _, err := p.compute(ctx, "", nil)
+	items, _, err := p.compute(ctx, "", nil, nil)
 	if err != nil {
 		return 0, err
 	}
 	return len(items), p.DB.ReplaceDue(ctx, "", nil, items, p.Notify)
 }
 
-func (p *Programme) compute(ctx context.Context, airframeID string, packs []string) ([]*fleet.DueItem, []string, error) {
+func (p *Programme) compute(ctx context.Context, airframeID string, packs []string, fresh *health.Refreshing) ([]*fleet.DueItem, []string, error) {
 	rules, err := p.DB.Rules(ctx)
 	if err != nil {
 		return nil, nil, err
@@ -80,7 +90,7 @@ func (p *Programme) compute(ctx context.Context, airframeID string, packs []stri
 			continue
 		}
 		g.Go(func() (err error) {
-			out[i].items, out[i].subjects, err = p.ruleItems(gctx, r, airframeID, packs, now)
+			out[i].items, out[i].subjects, err = p.ruleItems(gctx, r, airframeID, packs, now, fresh)
 			return err
 		})
 	}

@@ -5,12 +5,13 @@ import (
 	"fmt"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 )
 
 // DueSetBased is the due list of a scope as RecomputeFleet and
 // RecomputeAirframe compute it (usage summed by the database), unstored.
 func (p *Programme) DueSetBased(ctx context.Context, airframeID string, packs []string) ([]*fleet.DueItem, error) {
-	items, _, err := p.compute(ctx, airframeID, packs)
+	items, _, err := p.compute(ctx, airframeID, packs, nil)
 	return items, err
 }
 
@@ -47,4 +48,11 @@ func (p *Programme) DueOneByOne(ctx context.Context, airframeID string, packs []
 		}
 	}
 	return items, nil
+}
+
+// DueBeside is DueSetBased computed beside a health refresh under way, as
+// RecomputeAirframeBeside computes it, unstored.
+func (p *Programme) DueBeside(ctx context.Context, airframeID string, packs []string, fresh *health.Refreshing) ([]*fleet.DueItem, error) {
+	items, _, err := p.compute(ctx, airframeID, packs, fresh)
+	return items, err
 }

@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -40,19 +41,16 @@ func (p *Programme) JudgeTakeoff(ctx context.Context, f *fleet.Flight) (*fleet.R
 // flight changes what its airframe and packs went through before later
 // take-offs) and recomputes the due list of its airframe and packs and of
 // every airframe whose verdicts changed. The re-judging reads records, not
-// stored health views, so it may run beside the flight's health refresh;
-// the recompute reads the views, and waits for refreshed to be closed (nil:
-// already refreshed).
-func (p *Programme) AfterFlight(ctx context.Context, f *fleet.Flight, refreshed <-chan struct{}) error {
+// stored health views, so it may run beside the flight's health refresh
+// (fresh; nil: already refreshed); the recompute takes the views once the
+// refresh has ended (RecomputeAirframeBeside).
+func (p *Programme) AfterFlight(ctx context.Context, f *fleet.Flight, fresh *health.Refreshing) error {
 	packs := make([]string, len(f.Packs))
 	for i, pk := range f.Packs {
 		packs[i] = pk.PartID
 	}
 	r, err := p.RejudgeFrom(ctx, f.AirframeID, packs, f.TakeoffAt)
-	if refreshed != nil {
-		<-refreshed
-	}
-	if _, e := p.RecomputeAirframe(ctx, f.AirframeID, packs); err == nil {
+	if _, e := p.RecomputeAirframeBeside(ctx, f.AirframeID, packs, fresh); err == nil {
 		err = e
 	}
 	return p.recomputeChanged(ctx, f.AirframeID, r.Airframes, err)

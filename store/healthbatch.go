@@ -38,16 +38,18 @@ func (db *DB) FitsOf(ctx context.Context, partIDs []string) ([]*fleet.Fit, error
 // runs of the position it was fitted at on every flight while fitted, from
 // its since on, by part, oldest first. Bins come as BinsArray, read from
 // bins_packed (migration 023): no JSON to print and parse again, and no
-// float8[] to send element by element.
-func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time) (map[string][]RotorRun, error) {
+// float8[] to send element by element. Only the parts with bins set get
+// them (a motor's wear reads them, a propeller's does not): they are most
+// of a run's bytes, and a propeller's runs are its motor's again.
+func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Time, bins []bool) (map[string][]RotorRun, error) {
 	rows, err := db.pool.Query(ctx, `
 		SELECT f.part_id, fl.id, fl.takeoff_at, fl.airframe_id, mr.position, mr.run_s, mr.revolutions, mr.mean_rpm,
-			mr.thrust_mean_n, mr.bins_packed
-		FROM unnest($1::uuid[], $2::timestamptz[]) AS q (part_id, since)
+			mr.thrust_mean_n, CASE WHEN q.bins THEN mr.bins_packed END
+		FROM unnest($1::uuid[], $2::timestamptz[], $3::boolean[]) AS q (part_id, since, bins)
 		JOIN fits f ON f.part_id = q.part_id
 		JOIN flights fl ON `+fitAtTakeoff+`
 		JOIN motor_runs mr ON mr.flight_id = fl.id AND mr.position = f.position
-		WHERE fl.takeoff_at >= q.since`, partIDs, since)
+		WHERE fl.takeoff_at >= q.since`, partIDs, since, bins)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -78,8 +80,10 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 			m.Position = string(pos)
 			positions[m.Position] = m.Position
 		}
-		if m.BinsArray, err = packedBins(rows.FieldDescriptions()[9].Format, rows.RawValues()[9]); err != nil {
-			return nil, err
+		if b := rows.RawValues()[9]; b != nil {
+			if m.BinsArray, err = packedBins(rows.FieldDescriptions()[9].Format, b); err != nil {
+				return nil, err
+			}
 		}
 		out[id] = append(out[id], m)
 	}
@@ -141,6 +145,7 @@ type HealthRow struct {
 	Status  string
 	Flagged bool
 	View    any
+	JSON    []byte // View encoded (MarshalView), when the caller encoded it
 }
 
 // SavePartHealths stores many parts' health views in one statement, as
@@ -187,9 +192,11 @@ func MarshalView(v any) ([]byte, error) { return gojson.Marshal(v) }
 func healthArrays(rows []HealthRow) (ids, statuses, views []string, err error) {
 	ids, statuses, views = make([]string, len(rows)), make([]string, len(rows)), make([]string, len(rows))
 	for i, r := range rows {
-		b, err := MarshalView(r.View)
-		if err != nil {
-			return nil, nil, nil, err
+		b := r.JSON
+		if b == nil {
+			if b, err = MarshalView(r.View); err != nil {
+				return nil, nil, nil, err
+			}
 		}
 		ids[i], statuses[i], views[i] = r.ID, r.Status, string(b)
 	}

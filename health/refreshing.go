@@ -1,0 +1,82 @@
+package health
+
+import (
+	"context"
+	"encoding/json"
+	"sync"
+
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// Refreshing is a Refresh under way (StartRefresh). Once Done is closed it
+// holds the views the refresh stored, as stored, so that a due list
+// computed beside it need not read them back (a quad's motor views at 500
+// flights are about 160 kB of JSON the database would decompress and print
+// again). A nil Refreshing is a refresh already done.
+type Refreshing struct {
+	done   chan struct{}
+	err    error
+	mu     sync.Mutex
+	parts  map[string]json.RawMessage
+	trends map[string]json.RawMessage
+}
+
+// StartRefresh starts Refresh of the flight on another goroutine.
+func (s *Service) StartRefresh(ctx context.Context, flightID string) *Refreshing {
+	r := &Refreshing{done: make(chan struct{}), parts: map[string]json.RawMessage{}, trends: map[string]json.RawMessage{}}
+	c := *s
+	c.stored = r
+	go func() {
+		defer close(r.done)
+		r.err = c.Refresh(ctx, flightID)
+	}()
+	return r
+}
+
+// Done is closed when the refresh has ended.
+func (r *Refreshing) Done() <-chan struct{} { return r.done }
+
+// Err is the refresh's error, once Done is closed.
+func (r *Refreshing) Err() error { return r.err }
+
+// PartView is the view of the part the refresh stored, once Done is closed
+// and Err is nil (ok false: it stored none for that part).
+func (r *Refreshing) PartView(id string) (json.RawMessage, bool) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	v, ok := r.parts[id]
+	return v, ok
+}
+
+// TrendsView is the airframe's trends the refresh stored, as PartView.
+func (r *Refreshing) TrendsView(id string) (json.RawMessage, bool) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	v, ok := r.trends[id]
+	return v, ok
+}
+
+// keep records views about to be stored (nil r: nothing kept).
+func (r *Refreshing) keep(m map[string]json.RawMessage, rows []store.HealthRow) {
+	if r == nil {
+		return
+	}
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	for _, row := range rows {
+		m[row.ID] = row.JSON
+	}
+}
+
+// marshalRows encodes the rows' views for storing (store.MarshalView), so
+// that what is stored can also be kept.
+func marshalRows(rows []store.HealthRow) error {
+	for i := range rows {
+		b, err := store.MarshalView(rows[i].View)
+		if err != nil {
+			return err
+		}
+		rows[i].JSON = b
+	}
+	return nil
+}
