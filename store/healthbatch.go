@@ -1,6 +1,7 @@
 package store
 
 import (
+	"cmp"
 	"context"
 	"slices"
 	"time"
@@ -91,9 +92,13 @@ func (db *DB) RotorRunsOf(ctx context.Context, partIDs []string, since []time.Ti
 		return nil, translate(err)
 	}
 	// Oldest first, sorted here: the database's sort of the wide rows cost
-	// more than this one of each part's runs.
+	// more than this one of each part's runs. Not a stable sort (its merges
+	// moved the wide rows many times over): one part's runs are on flights
+	// at distinct times, and the flight id breaks any tie all the same.
 	for _, list := range out {
-		slices.SortStableFunc(list, func(a, b RotorRun) int { return a.TakeoffAt.Compare(b.TakeoffAt) })
+		slices.SortFunc(list, func(a, b RotorRun) int {
+			return cmp.Or(a.TakeoffAt.Compare(b.TakeoffAt), cmp.Compare(a.FlightID, b.FlightID))
+		})
 	}
 	return out, nil
 }

@@ -36,6 +36,23 @@ func TestNthMatchesSort(t *testing.T) {
 			}
 		}
 	}
+	// Ranges above 600 values take Floyd and Rivest's sampling step: random
+	// values, heavy ties and every k near the ends and the middle.
+	for _, n := range []int{601, 602, 999, 4096, 125_000} {
+		for _, levels := range []int{3, 1000, 0} { // 0: continuous
+			xs := make([]float64, n)
+			for i := range xs {
+				if levels == 0 {
+					xs[i] = rng.NormFloat64()
+				} else {
+					xs[i] = float64(rng.IntN(levels))
+				}
+			}
+			for _, k := range []int{0, 1, n / 3, n/2 - 1, n / 2, n - 2, n - 1, rng.IntN(n)} {
+				check(xs, k)
+			}
+		}
+	}
 	for _, n := range []int{1000, 1001, 50_000} {
 		sorted := make([]float64, n)
 		for i := range sorted {
@@ -53,4 +70,30 @@ func TestNthMatchesSort(t *testing.T) {
 			check(xs, n-1)
 		}
 	}
+}
+
+// BenchmarkNth is the median of 125,000 values (a pack's Theil-Sen slopes
+// at 500 flights), against sorting them (slices.Sort), the floor any
+// selection must beat:
+//
+//	go test -bench Nth -run '^$' ./internal/selection
+func BenchmarkNth(b *testing.B) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	xs := make([]float64, 125_000)
+	for i := range xs {
+		xs[i] = rng.NormFloat64()
+	}
+	s := make([]float64, len(xs))
+	b.Run("nth", func(b *testing.B) {
+		for b.Loop() {
+			copy(s, xs)
+			Nth(s, len(s)/2)
+		}
+	})
+	b.Run("sort", func(b *testing.B) {
+		for b.Loop() {
+			copy(s, xs)
+			slices.Sort(s)
+		}
+	})
 }
