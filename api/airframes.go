@@ -3,6 +3,7 @@ package api
 import (
 	"net/http"
 	"strconv"
+	"sync"
 	"time"
 
 	"github.com/gin-gonic/gin"
@@ -171,23 +172,35 @@ func (s *Server) getFitment(c *gin.Context) {
 		at = *t
 	}
 	// The database writes the parts and empty places as the JSON sent
-	// (store.FitmentJSON); only the envelope is written here.
-	parts, empty, err := s.db.FitmentJSON(c.Request.Context(), id, at)
-	if err != nil {
-		s.fail(c, err)
-		return
-	}
-	b := make([]byte, 0, 64+len(parts)+len(empty))
-	b = append(b, `{"airframe_id":`...)
+	// (store.AppendFitmentJSON); only the envelope is written here, all of
+	// it into one buffer reused from request to request (the answer was
+	// two allocations a request, most of the lookup's garbage).
+	bp := answerBufs.Get().(*[]byte)
+	defer putAnswerBuf(bp)
+	b := append((*bp)[:0], `{"airframe_id":`...)
 	b = strconv.AppendQuote(b, id) // a canonical UUID: nothing to escape
 	b = append(b, `,"at":"`...)
 	b = at.UTC().AppendFormat(b, time.RFC3339Nano)
 	b = append(b, `","parts":`...)
-	b = append(b, parts...)
-	b = append(b, `,"empty":`...)
-	b = append(b, empty...)
+	b, _, err = s.db.AppendFitmentJSON(c.Request.Context(), b, id, at, `,"empty":`)
+	if err != nil {
+		s.fail(c, err)
+		return
+	}
 	b = append(b, '}')
-	c.Data(http.StatusOK, "application/json; charset=utf-8", b)
+	*bp = b
+	c.Data(http.StatusOK, "application/json; charset=utf-8", b) // copied out before it returns
+}
+
+// answerBufs are buffers for answers written whole before they are sent.
+var answerBufs = sync.Pool{New: func() any { b := make([]byte, 0, 4096); return &b }}
+
+// putAnswerBuf returns a buffer to answerBufs, unless an unusually large
+// answer grew it (kept, it would hold that memory for good).
+func putAnswerBuf(bp *[]byte) {
+	if cap(*bp) <= 64<<10 {
+		answerBufs.Put(bp)
+	}
 }
 
 func (s *Server) listLayouts(c *gin.Context) {

@@ -2,9 +2,14 @@ package api_test
 
 import (
 	"context"
+	"encoding/json"
+	"fmt"
 	"net/http"
+	"net/http/httptest"
 	"net/url"
 	"reflect"
+	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -84,3 +89,53 @@ func TestFitmentPassThroughMatchesDecoded(t *testing.T) {
 }
 
 func ptr[T any](v T) *T { return &v }
+
+// The fitment answer is written into a buffer reused between requests
+// (answerBufs); answers written at the same time for different airframes
+// each carry their own airframe and parts.
+func TestFitmentAnswersAtOnceStayApart(t *testing.T) {
+	e := newEnv(t)
+	t0 := time.Now().Add(-48 * time.Hour).UTC().Truncate(time.Second)
+	var afs []idBody
+	want := map[string]string{} // airframe id -> the prefix of its parts' serials
+	for i, code := range []string{"AP-01", "AP-02", "AP-03"} {
+		af := e.quad(code)
+		e.fitQuad(af, code, fmt.Sprintf("L-%d", i), t0)
+		afs, want[af.ID] = append(afs, af), code+"-"
+	}
+	var wg sync.WaitGroup
+	errs := make(chan error, 8)
+	for g := range 8 {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range 40 {
+				af := afs[(g+i)%len(afs)]
+				req := httptest.NewRequest("GET", "/v1/airframes/"+af.ID+"/fitment", nil)
+				req.Header.Set("Authorization", "Bearer "+e.tokens[fleet.RoleViewer])
+				rec := httptest.NewRecorder()
+				e.h.ServeHTTP(rec, req)
+				var got struct {
+					AirframeID string `json:"airframe_id"`
+					Parts      []struct {
+						Serial string `json:"serial"`
+					} `json:"parts"`
+				}
+				if err := json.Unmarshal(rec.Body.Bytes(), &got); err != nil || rec.Code != http.StatusOK {
+					errs <- fmt.Errorf("%d %v: %s", rec.Code, err, rec.Body)
+					return
+				}
+				if got.AirframeID != af.ID || len(got.Parts) != 8 || !strings.HasPrefix(got.Parts[0].Serial, want[af.ID]) ||
+					!strings.HasPrefix(got.Parts[7].Serial, want[af.ID]) {
+					errs <- fmt.Errorf("asked %s, got %s with %d parts: %s", af.ID, got.AirframeID, len(got.Parts), rec.Body)
+					return
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	close(errs)
+	for err := range errs {
+		t.Fatal(err)
+	}
+}

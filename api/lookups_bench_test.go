@@ -14,10 +14,13 @@ import (
 	"runtime/pprof"
 	"slices"
 	"strconv"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"testing"
 	"time"
+
+	"github.com/valyala/fasthttp"
 
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
@@ -35,10 +38,11 @@ const lookupConc = 4
 
 // lookup is one measured lookup: the SQL floor and the same answer over HTTP.
 type lookup struct {
-	name  string
-	chunk int // requests per chunk (10 chunks a side per round)
-	floor func(ctx context.Context, id string) error
-	http  func(id string) error
+	name    string
+	chunk   int // requests per chunk (10 chunks a side per round)
+	floor   func(ctx context.Context, id string) error
+	http    func(id string) error // with the lean client (the target)
+	netHTTP func(id string) error // with Go's net/http client (reported beside)
 }
 
 // sample gathers the requests of one side (floor or HTTP) of a round.
@@ -147,6 +151,11 @@ func BenchmarkLookups(b *testing.B) {
 	// Rate limits off: one key at thousands of requests a second is the point.
 	srv := httptest.NewServer(api.New(db, log, unlimited(api.DefaultLimits), nil).Handler())
 	defer srv.Close()
+	// Two clients: Go's net/http client (about a fifth of the process's CPU
+	// per request, in profiles) and fasthttp's, a lean load generator like
+	// those run from another machine. The targets are read with the lean
+	// one, so that what is measured is the server, not the client sharing
+	// its two cores; the net/http client's figures are reported beside.
 	client := &http.Client{Transport: &http.Transport{MaxIdleConnsPerHost: lookupConc}}
 	get := func(base, path string) error {
 		req, err := http.NewRequest(http.MethodGet, base+path, nil)
@@ -167,7 +176,31 @@ func BenchmarkLookups(b *testing.B) {
 		}
 		return nil
 	}
-	bare := newBareFitment(b, db, get)
+	auth := "Bearer " + token
+	var leanMu sync.Mutex
+	leans := map[string]*fasthttp.HostClient{} // one per server
+	getLean := func(base, path string) error {
+		leanMu.Lock()
+		lean := leans[base]
+		if lean == nil {
+			lean = &fasthttp.HostClient{Addr: strings.TrimPrefix(base, "http://"), MaxConns: lookupConc}
+			leans[base] = lean
+		}
+		leanMu.Unlock()
+		req, res := fasthttp.AcquireRequest(), fasthttp.AcquireResponse()
+		defer fasthttp.ReleaseRequest(req)
+		defer fasthttp.ReleaseResponse(res)
+		req.SetRequestURI(base + path)
+		req.Header.Set("Authorization", auth)
+		if err := lean.Do(req, res); err != nil {
+			return err
+		}
+		if res.StatusCode() != http.StatusOK || len(res.Body()) == 0 {
+			return fmt.Errorf("GET %s: %d, %d bytes", path, res.StatusCode(), len(res.Body()))
+		}
+		return nil
+	}
+	bare := newBareFitment(b, db, getLean)
 	defer bare.close()
 	lookups := []lookup{
 		{name: "fitment", chunk: 400,
@@ -182,7 +215,8 @@ func BenchmarkLookups(b *testing.B) {
 				rows.Close()
 				return rows.Err()
 			},
-			http: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/fitment") }},
+			http:    func(id string) error { return getLean(srv.URL, "/v1/airframes/"+id+"/fitment") },
+			netHTTP: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/fitment") }},
 		{name: "readiness", chunk: 100,
 			floor: func(ctx context.Context, id string) error {
 				// Every statement of the answer in one pipelined batch, each
@@ -205,13 +239,15 @@ func BenchmarkLookups(b *testing.B) {
 				}
 				return br.Close()
 			},
-			http: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/readiness") }},
+			http:    func(id string) error { return getLean(srv.URL, "/v1/airframes/"+id+"/readiness") },
+			netHTTP: func(id string) error { return get(srv.URL, "/v1/airframes/"+id+"/readiness") }},
 	}
 	rng := rand.New(rand.NewPCG(3, 4))
 	for b.Loop() {
 		// Warm both sides (plans, caches, connections) before measuring.
 		for _, l := range lookups {
 			paired(b, ids, rng, 2, 300, lookupConc, func(id string) error { return l.floor(ctx, id) }, l.http)
+			paired(b, ids, rng, 2, 100, lookupConc, func(id string) error { return l.floor(ctx, id) }, l.netHTTP)
 		}
 		const rounds = 3
 		for _, l := range lookups {
@@ -231,6 +267,19 @@ func BenchmarkLookups(b *testing.B) {
 			b.ReportMetric(slices.Min(ratios), l.name+"-ratio-min")
 			b.ReportMetric(slices.Max(ratios), l.name+"-ratio-max")
 			b.ReportMetric(float64(slices.Max(p99s).Microseconds())/1000, l.name+"-http-p99-ms-max")
+			// The same with Go's net/http client, for comparison.
+			var stdRatios []float64
+			for r := range rounds {
+				fl, ht := paired(b, ids, rng, 10, l.chunk, lookupConc, floorFn, l.netHTTP)
+				fl1, ht1 := paired(b, ids, rng, 10, l.chunk/2, 1, floorFn, l.netHTTP)
+				stdRatios = append(stdRatios, ht.rate()/fl.rate())
+				b.Logf("%s round %d, net/http client: %d clients: floor %.0f/s, HTTP %.0f/s, ratio %.2f; "+
+					"1 client: p50/p99 floor %s/%s, HTTP %s/%s",
+					l.name, r, lookupConc, fl.rate(), ht.rate(), ht.rate()/fl.rate(),
+					fl1.quantile(0.5), fl1.quantile(0.99), ht1.quantile(0.5), ht1.quantile(0.99))
+			}
+			b.ReportMetric(slices.Min(stdRatios), l.name+"-nethttp-ratio-min")
+			b.ReportMetric(slices.Max(stdRatios), l.name+"-nethttp-ratio-max")
 		}
 		if dir := os.Getenv("ROTORWRIGHT_LOOKUP_PROFILE"); dir != "" {
 			// A CPU profile of each lookup over HTTP alone (client included:

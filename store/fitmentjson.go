@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"sync"
 	"time"
 
@@ -39,44 +40,58 @@ const FitmentJSONSQL = `
 // the whole of the lookup's work, and the API serves it thousands of
 // times a second.
 func (db *DB) FitmentJSON(ctx context.Context, airframeID string, at time.Time) (parts, empty []byte, err error) {
+	buf, n, err := db.AppendFitmentJSON(ctx, nil, airframeID, at, "")
+	if err != nil {
+		return nil, nil, err
+	}
+	return buf[:n:n], buf[n:], nil
+}
+
+// AppendFitmentJSON appends to dst what FitmentJSON returns: the parts
+// array, then sep, then the empty places array; partsEnd is where the parts
+// end in out. A caller that writes an envelope around them (the API) can
+// so write the whole answer into one buffer it reuses.
+func (db *DB) AppendFitmentJSON(ctx context.Context, dst []byte, airframeID string, at time.Time, sep string) (out []byte, partsEnd int, err error) {
 	rows, err := db.pool.Query(ctx, FitmentJSONSQL, airframeID, at)
 	if err != nil {
-		return nil, nil, translate(err)
+		return dst, 0, translate(err)
 	}
 	defer rows.Close()
 	if !rows.Next() {
 		if err := rows.Err(); err != nil {
-			return nil, nil, translate(err)
+			return dst, 0, translate(err)
 		}
-		return nil, nil, notFound("airframe")
+		return dst, 0, notFound("airframe")
 	}
 	raw, fd := rows.RawValues(), rows.FieldDescriptions()
 	var kbuf, pbuf [16][]byte // a quad has 8 fits, an octo 16: no allocation
 	kinds, err := textArray(fd[2].Format, raw[2], kbuf[:0])
 	if err != nil {
-		return nil, nil, err
+		return dst, 0, err
 	}
 	places, err := textArray(fd[3].Format, raw[3], pbuf[:0])
 	if err != nil {
-		return nil, nil, err
+		return dst, 0, err
 	}
 	if len(kinds) != len(places) {
-		return nil, nil, fmt.Errorf("fitment: %d kinds, %d places", len(kinds), len(places))
+		return dst, 0, fmt.Errorf("fitment: %d kinds, %d places", len(kinds), len(places))
 	}
 	positions, err := jsonText(fd[0], raw[0])
 	if err != nil {
-		return nil, nil, err
+		return dst, 0, err
 	}
 	labels, err := layoutLabels(positions)
 	if err != nil {
-		return nil, nil, err
+		return dst, 0, err
 	}
-	buf := make([]byte, 0, len(raw[1])+2+len(labels)*96)
+	buf := slices.Grow(dst, len(raw[1])+len(sep)+2+len(labels)*96)
 	partsJSON, err := jsonText(fd[1], raw[1])
 	if err != nil {
-		return nil, nil, err
+		return dst, 0, err
 	}
 	buf = append(buf, partsJSON...)
+	end := len(buf)
+	buf = append(buf, sep...)
 	n := len(buf)
 	// The empty places as EmptyPlaces lists them: positions in layout
 	// order, motor before propeller at each.
@@ -99,9 +114,9 @@ func (db *DB) FitmentJSON(ctx context.Context, airframeID string, at time.Time) 
 	buf = append(buf, ']')
 	rows.Close()
 	if err := rows.Err(); err != nil {
-		return nil, nil, translate(err)
+		return dst, 0, translate(err)
 	}
-	return buf[:n:n], buf[n:], nil
+	return buf, end, nil
 }
 
 func fittedAt(kinds, places [][]byte, kind, place string) bool {
