@@ -239,7 +239,7 @@ type RotorRun struct {
 	MeanRPM     *float64
 	ThrustMeanN *float64
 	Bins        json.RawMessage
-	// BinsArray is Bins as motor_runs.bins_array holds it (five values a
+	// BinsArray is Bins as motor_bins_array (migration 021) gives it (five values a
 	// bin: rpm_lo, rpm_hi, seconds, revolutions, mean_thrust_n or nil),
 	// read (from its packed copy, bins_packed) instead of Bins by
 	// RotorRunsOf; nil when Bins is read.
