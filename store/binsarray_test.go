@@ -20,8 +20,9 @@ type jsonBin struct {
 	MeanThrustN *float64 `json:"mean_thrust_n"`
 }
 
-// TestBinsArrayMatchesJSON holds motor_runs.bins_array (the database's
-// float8 copy of the bins, migration 021) to encoding/json's decoding of
+// TestBinsArrayMatchesJSON holds motor_bins_array (the database's
+// float8 reading of the bins, migration 021; bins_packed is computed through
+// it) to encoding/json's decoding of
 // the same JSON, bit for bit: awkward doubles (exponent forms, subnormals,
 // the largest double, 17-digit values), a null and a missing thrust, a
 // missing field, and many random doubles written as the ingest writes them

@@ -15,7 +15,7 @@ import (
 )
 
 // TestBinsPackedMatchesArray holds motor_runs.bins_packed (migration 023),
-// as RotorRunsOf decodes it in either format, to bins_array (held to
+// as RotorRunsOf decodes it in either format, to motor_bins_array (held to
 // encoding/json by TestBinsArrayMatchesJSON) bit for bit, NULLs in place:
 // awkward doubles, a null and a missing thrust, an empty list, and random
 // bins written as the ingest writes them.
