@@ -58,6 +58,9 @@ type Service struct {
 	Now      func() time.Time
 	duty     *dutyMemo   // set for one run over many motors (withDutyMemo)
 	stored   *Refreshing // set for a refresh whose views are kept (StartRefresh)
+	// splitRuns reads the rotor runs in two halves at once (rotorRuns): set
+	// for one flight's parts (Refresh).
+	splitRuns bool
 }
 
 // New returns a service with the default settings and the wall clock.
@@ -137,7 +140,9 @@ func (s *Service) Refresh(ctx context.Context, flightID string) error {
 		_, err := s.Airframe(gctx, f.AirframeID)
 		return err
 	})
-	_, err = s.withDutyMemo(false).partBatch(gctx, parts, nil)
+	run := s.withDutyMemo(false)
+	run.splitRuns = true
+	_, err = run.partBatch(gctx, parts, nil)
 	return cmp.Or(g.Wait(), err)
 }
 
