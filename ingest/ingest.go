@@ -135,7 +135,14 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 	if err != nil {
 		return Result{}, err
 	}
-	a, err := in.analyse(log, &f, facts)
+	// The verdict as of take-off starts as soon as the take-off time is
+	// known (the analysis finds it first), beside the rest of the analysis.
+	var early *earlyVerdict
+	if in.Judge != nil {
+		early = startVerdict(ctx, in.Judge)
+		defer early.cancel()
+	}
+	a, err := in.analyse(log, &f, facts, early.start)
 	if err != nil {
 		return Result{}, err
 	}
@@ -143,7 +150,7 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		if err := f.Validate(); err != nil {
 			return Result{}, err
 		}
-		verdict, err := in.Judge(ctx, &f)
+		verdict, err := early.result(ctx, &f)
 		if err != nil {
 			return Result{}, err
 		}
@@ -231,23 +238,37 @@ func (in *Ingester) resolve(ctx context.Context, f *fleet.Flight, log *telemetry
 }
 
 // analyse runs the analysis with the register's facts and settles the
-// flight's take-off and landing times.
-func (in *Ingester) analyse(log *telemetry.Log, f *fleet.Flight, facts *store.FlightFacts) (*store.Analysis, error) {
+// flight's take-off and landing times; timed, when set, hears them as soon
+// as they are known (given, or found by the analysis), as the flight with
+// them set.
+func (in *Ingester) analyse(log *telemetry.Log, f *fleet.Flight, facts *store.FlightFacts, timed func(fleet.Flight)) (*store.Analysis, error) {
 	p := in.params(f, facts)
 	start := log.Meta.Start
-	timed := !f.TakeoffAt.IsZero() && !f.LandingAt.IsZero()
-	if timed && start != nil {
+	given := !f.TakeoffAt.IsZero() && !f.LandingAt.IsZero()
+	if given && start != nil {
 		p.Airborne = &telemetry.Span{FromS: f.TakeoffAt.Sub(*start).Seconds(), ToS: f.LandingAt.Sub(*start).Seconds()}
 		if p.Airborne.FromS < log.T[0] || p.Airborne.ToS > log.T[len(log.T)-1] {
 			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "takeoff_at",
 				Message: "take-off and landing must fall within the log's time span"}
 		}
 	}
+	switch {
+	case timed == nil:
+	case given:
+		timed(*f)
+	case start != nil:
+		// As settled below from the metrics.
+		p.OnAirborne = func(fromS, toS float64) {
+			g := *f
+			g.TakeoffAt, g.LandingAt = start.Add(secs(fromS)).Round(time.Millisecond), start.Add(secs(toS)).Round(time.Millisecond)
+			timed(g)
+		}
+	}
 	m, err := telemetry.Analyze(log, p)
 	if err != nil {
 		return nil, err
 	}
-	if !timed {
+	if !given {
 		if start == nil || m.AirborneFromS == nil || m.AirborneToS == nil {
 			return nil, &fleet.Error{Code: fleet.EUNPROCESSABLE, Field: "takeoff_at",
 				Message: "give takeoff_at and landing_at: the log has no '# start:' time or shows no rotor run"}
@@ -454,7 +475,7 @@ func (in *Ingester) reanalyseOne(ctx context.Context, s store.StoredLog) error {
 	if err != nil {
 		return err
 	}
-	a, err := in.analyse(log, s.Flight, facts)
+	a, err := in.analyse(log, s.Flight, facts, nil)
 	if err != nil {
 		return err
 	}

@@ -59,6 +59,12 @@ type Params struct {
 	VibrationCutoffHz float64 // default: chosen from the sample rate (vibrationCutoff)
 	LandingWindowS    float64 // default DefaultLandingWindowS
 	MaxGapS           float64 // default DefaultMaxGapS
+
+	// OnAirborne, when set, hears the airborne span (log seconds) as soon
+	// as it is found, before the rest of the analysis runs: what the
+	// caller judges by the take-off time can start then. Metrics'
+	// AirborneFromS and AirborneToS are the same values.
+	OnAirborne func(fromS, toS float64)
 }
 
 // validate refuses parameters that are negative or not finite (EINVALID).
@@ -247,6 +253,9 @@ func Analyze(l *Log, p Params) (*Metrics, error) {
 	m.LogS = l.T[l.Rows-1] - l.T[0]
 	a.bridgeAll()
 	a.activity()
+	if m.AirborneFromS != nil && m.AirborneToS != nil && p.OnAirborne != nil {
+		p.OnAirborne(*m.AirborneFromS, *m.AirborneToS)
+	}
 	a.electrical()
 	a.meanPower()
 	a.resistance()

@@ -423,3 +423,26 @@ func TestParamsAndSpans(t *testing.T) {
 		}
 	}
 }
+
+// OnAirborne hears the airborne span once, before the analysis returns,
+// with the values the metrics then carry (the synthetic hover's edges, by
+// construction); a given span is heard as found inside the log.
+func TestOnAirborneHearsTheSpan(t *testing.T) {
+	f := flight{rpm: [4]float64{5000, 5100, 4900, 5000}, baro: true, gps: true, climbM: 40}
+	log := parseString(t, f.csv())
+	for _, given := range []*Span{nil, {FromS: fUp + 1, ToS: fDown - 1}} {
+		var heard [][2]float64
+		m, err := Analyze(log, Params{MassKg: 1.5, RotorDiameterM: 0.254, Rotors: 4, Airborne: given,
+			OnAirborne: func(from, to float64) { heard = append(heard, [2]float64{from, to}) }})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(heard) != 1 || m.AirborneFromS == nil || m.AirborneToS == nil ||
+			heard[0] != [2]float64{*m.AirborneFromS, *m.AirborneToS} {
+			t.Fatalf("given %v: heard %v, metrics %v..%v", given, heard, m.AirborneFromS, m.AirborneToS)
+		}
+		if given == nil && (heard[0][0] != fUp || heard[0][1] != fDown) {
+			t.Errorf("heard %v, the hover lifts at %v and lands at %v", heard[0], fUp, fDown)
+		}
+	}
+}
