@@ -21,7 +21,7 @@ func TestUploadFailingAfterLogWrittenLeavesNothing(t *testing.T) {
 		if judged == 1 {
 			return nil, errors.New("verdict failed")
 		}
-		return &fleet.Readiness{Ready: true, Blockers: []fleet.ReadinessItem{}, Warnings: []fleet.ReadinessItem{}}, nil
+		return ready(), nil
 	}
 	if _, _, err := r.upload(0, false); err == nil || err.Error() != "verdict failed" {
 		t.Fatalf("upload with a failing verdict: %v", err)

@@ -21,7 +21,7 @@ func TestUploadJudgesTakeoffOnceWithRecordedTime(t *testing.T) {
 		mu.Lock()
 		judged = append(judged, f.TakeoffAt)
 		mu.Unlock()
-		return &fleet.Readiness{Ready: true, Blockers: []fleet.ReadinessItem{}, Warnings: []fleet.ReadinessItem{}}, nil
+		return ready(), nil
 	}
 	id, _, err := r.upload(0, false)
 	if err != nil {
