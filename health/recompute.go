@@ -125,13 +125,13 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 			rows = append(rows, store.HealthRow{ID: p.ID, Status: v.Status, View: v})
 		}
 		packs = len(rows)
-		return s.saveViews(gctx, rows, now)
+		return s.saveViews(gctx, rows, now, false)
 	})
 	rows, err := s.rotorViews(gctx, parts, ids, strikes, now)
 	if err == nil {
 		// In the batch's order: parts of no kind with a view left out.
 		rows = slices.DeleteFunc(rows, func(r store.HealthRow) bool { return r.View == nil })
-		err = s.saveViews(gctx, rows, now)
+		err = s.saveViews(gctx, rows, now, false)
 	}
 	if err := cmp.Or(g.Wait(), err); err != nil {
 		return 0, err
@@ -139,23 +139,27 @@ func (s *Service) partBatch(ctx context.Context, ids []string, strikes []*fleet.
 	return len(rows) + packs, nil
 }
 
-// saveViews stores the rows, if any, keeping them when the refresh's views
-// are kept.
-func (s *Service) saveViews(ctx context.Context, rows []store.HealthRow, now time.Time) error {
+// saveViews stores the rows, if any: parts' views, or airframes' trends;
+// when the refresh's views are kept (StartRefresh), encoded once, and kept
+// as stored.
+func (s *Service) saveViews(ctx context.Context, rows []store.HealthRow, now time.Time, trends bool) error {
 	if len(rows) == 0 {
 		return nil
 	}
-	if s.stored != nil {
-		if err := marshalRows(rows); err != nil {
-			return err
-		}
+	save := s.DB.SavePartHealths
+	if trends {
+		save = s.DB.SaveAirframeTrendsMany
 	}
-	if err := s.DB.SavePartHealths(ctx, rows, now); err != nil {
+	if s.stored == nil {
+		return save(ctx, rows, now)
+	}
+	if err := marshalRows(rows); err != nil {
 		return err
 	}
-	if s.stored != nil {
-		s.stored.keep(s.stored.parts, rows)
+	if err := save(ctx, rows, now); err != nil {
+		return err
 	}
+	s.stored.keep(trends, rows)
 	return nil
 }
 

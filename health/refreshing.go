@@ -56,13 +56,14 @@ func (r *Refreshing) TrendsView(id string) (json.RawMessage, bool) {
 	return v, ok
 }
 
-// keep records views about to be stored (nil r: nothing kept).
-func (r *Refreshing) keep(m map[string]json.RawMessage, rows []store.HealthRow) {
-	if r == nil {
-		return
-	}
+// keep records views as they were stored: airframes' trends, or parts'.
+func (r *Refreshing) keep(trends bool, rows []store.HealthRow) {
 	r.mu.Lock()
 	defer r.mu.Unlock()
+	m := r.parts
+	if trends {
+		m = r.trends
+	}
 	for _, row := range rows {
 		m[row.ID] = row.JSON
 	}

@@ -2,7 +2,6 @@ package health
 
 import (
 	"context"
-	"encoding/json"
 	"time"
 
 	"github.com/rotorwright/rotorwright/store"
@@ -39,18 +38,7 @@ func (s *Service) Airframe(ctx context.Context, airframeID string) (*TrendsView,
 	if err != nil {
 		return nil, err
 	}
-	if s.stored == nil {
-		return tv, s.DB.SaveAirframeTrends(ctx, airframeID, tv.Flagged, tv, now)
-	}
-	rows := []store.HealthRow{{ID: airframeID, View: tv}}
-	if err := marshalRows(rows); err != nil {
-		return nil, err
-	}
-	if err := s.DB.SaveAirframeTrends(ctx, airframeID, tv.Flagged, json.RawMessage(rows[0].JSON), now); err != nil {
-		return nil, err
-	}
-	s.stored.keep(s.stored.trends, rows)
-	return tv, nil
+	return tv, s.saveViews(ctx, []store.HealthRow{{ID: airframeID, Flagged: tv.Flagged, View: tv}}, now, true)
 }
 
 // AirframeAt computes an airframe's trends over its logged flights before

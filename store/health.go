@@ -336,19 +336,6 @@ func (db *DB) PartHealth(ctx context.Context, partID string) (json.RawMessage, e
 	return v, nil
 }
 
-// SaveAirframeTrends stores an airframe's computed trends.
-func (db *DB) SaveAirframeTrends(ctx context.Context, airframeID string, flagged bool, view any, at time.Time) error {
-	b, err := MarshalView(view)
-	if err != nil {
-		return err
-	}
-	_, err = db.pool.Exec(ctx, `
-		INSERT INTO airframe_trends (airframe_id, computed_at, flagged, view) VALUES ($1, $2, $3, $4)
-		ON CONFLICT (airframe_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, flagged = EXCLUDED.flagged, view = EXCLUDED.view`,
-		airframeID, at, flagged, b)
-	return translate(err)
-}
-
 // AirframeTrends returns an airframe's stored trends (ENOTFOUND when never computed).
 func (db *DB) AirframeTrends(ctx context.Context, airframeID string) (json.RawMessage, error) {
 	var v json.RawMessage

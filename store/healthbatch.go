@@ -168,8 +168,8 @@ func (db *DB) SavePartHealths(ctx context.Context, rows []HealthRow, at time.Tim
 	return translate(err)
 }
 
-// SaveAirframeTrendsMany stores many airframes' trends in one statement, as
-// SaveAirframeTrends does one.
+// SaveAirframeTrendsMany stores airframes' computed trends (each row's
+// Flagged and View) in one statement.
 func (db *DB) SaveAirframeTrendsMany(ctx context.Context, rows []HealthRow, at time.Time) error {
 	ids, _, views, err := healthArrays(rows)
 	if err != nil {

@@ -35,7 +35,7 @@ func TestHealthViewsCompressedWithLZ4(t *testing.T) {
 	if err := f.db.SavePartHealths(f.ctx, []store.HealthRow{{ID: m.ID, Status: "ok", View: map[string]any{}, JSON: []byte(view)}}, at); err != nil {
 		t.Fatal(err)
 	}
-	if err := f.db.SaveAirframeTrends(f.ctx, a.ID, false, map[string]any{"series": series}, at); err != nil {
+	if err := f.db.SaveAirframeTrendsMany(f.ctx, []store.HealthRow{{ID: a.ID, View: map[string]any{"series": series}}}, at); err != nil {
 		t.Fatal(err)
 	}
 	for _, q := range []string{
