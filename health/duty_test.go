@@ -1,6 +1,7 @@
 package health_test
 
 import (
+	"slices"
 	"testing"
 	"time"
 
@@ -64,13 +65,13 @@ func TestModelDutyStoredBetweenRecomputes(t *testing.T) {
 		t.Fatal(err)
 	}
 	want("fleet recompute", liveRPM, liveN)
-	if rpm, n, found, err := r.db.StoredModelDuty(r.ctx, pn, now); err != nil || !found || rpm != liveRPM || n != liveN {
-		t.Fatalf("stored after the recompute: %v %v found %v, %v", rpm, n, found, err)
+	if rpm, n, ok, found, err := r.db.StoredModelDuty(r.ctx, pn, now); err != nil || !found || !ok || rpm != liveRPM || n != liveN {
+		t.Fatalf("stored after the recompute: %v %v ok %v found %v, %v", rpm, n, ok, found, err)
 	}
 
 	// A stored duty that differs from the runs' (as if stored before the
 	// last flights) serves a refresh while recent.
-	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, now.Add(-30*time.Minute)); err != nil {
+	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, true, now.Add(-30*time.Minute)); err != nil {
 		t.Fatal(err)
 	}
 	if err := r.hs.Refresh(r.ctx, last); err != nil {
@@ -79,19 +80,40 @@ func TestModelDutyStoredBetweenRecomputes(t *testing.T) {
 	want("refresh, stored duty 30 min old", liveRPM*1.1, liveN*1.2)
 
 	// Older than DutyMaxAge (1 h): read from the runs again, and stored.
-	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, now.Add(-2*time.Hour)); err != nil {
+	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, true, now.Add(-2*time.Hour)); err != nil {
 		t.Fatal(err)
 	}
 	if err := r.hs.Refresh(r.ctx, last); err != nil {
 		t.Fatal(err)
 	}
 	want("refresh, stored duty 2 h old", liveRPM, liveN)
-	if rpm, _, found, err := r.db.StoredModelDuty(r.ctx, pn, now); err != nil || !found || rpm != liveRPM {
+	if rpm, _, _, found, err := r.db.StoredModelDuty(r.ctx, pn, now); err != nil || !found || rpm != liveRPM {
 		t.Fatalf("stored after the live read: %v found %v, %v", rpm, found, err)
 	}
 
+	// A recent record that the model has no duty (as stored for a model
+	// whose runs give none) serves too: the motor is weighed against its
+	// own median duty, as when the model has none, without the live join.
+	if err := r.db.SaveModelDuty(r.ctx, pn, 0, 0, false, now.Add(-time.Minute)); err != nil {
+		t.Fatal(err)
+	}
+	if err := r.hs.Refresh(r.ctx, last); err != nil {
+		t.Fatal(err)
+	}
+	runs, err := r.db.RotorRuns(r.ctx, motors[0].ID, time.Time{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var rpms, ns []float64
+	for _, run := range runs {
+		if run.MeanRPM != nil && run.ThrustMeanN != nil {
+			rpms, ns = append(rpms, *run.MeanRPM), append(ns, *run.ThrustMeanN)
+		}
+	}
+	want("refresh, stored: no duty", middle(rpms), middle(ns))
+
 	// DutyMaxAge 0: live every time, whatever is stored.
-	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, now); err != nil {
+	if err := r.db.SaveModelDuty(r.ctx, pn, liveRPM*1.1, liveN*1.2, true, now); err != nil {
 		t.Fatal(err)
 	}
 	r.hs.Settings.DutyMaxAge = 0
@@ -99,4 +121,31 @@ func TestModelDutyStoredBetweenRecomputes(t *testing.T) {
 		t.Fatal(err)
 	}
 	want("refresh, DutyMaxAge 0", liveRPM, liveN)
+}
+
+// A model whose runs give no duty (no take-off mass: no thrust) is stored
+// as having none by the fleet recompute, so refreshes do not look again.
+func TestModelDutyNoneStored(t *testing.T) {
+	r := newRig(t)
+	now := time.Now().UTC().Truncate(time.Second)
+	r.hs.Now = func() time.Time { return now }
+	pack := sim.PackState{Serial: "NODUTY-P", Chemistry: sim.LiPo, CellsS: 4, CellsP: 1, RatedMah: 8000, BaselineIRmOhm: 16, StartSoC: 1}
+	r.quad("ND-01", 0, pack) // fitted, never flown: no run of the model
+	if _, err := r.hs.Recompute(r.ctx, nil); err != nil {
+		t.Fatal(err)
+	}
+	if _, _, ok, found, err := r.db.StoredModelDuty(r.ctx, "MT-2814", now); err != nil || !found || ok {
+		t.Fatalf("stored after the recompute: ok %v found %v, %v; want found, without a duty", ok, found, err)
+	}
+}
+
+// middle is the median as the motor view takes it (the mean of the two
+// middle values of an even count).
+func middle(x []float64) float64 {
+	s := slices.Sorted(slices.Values(x))
+	if n := len(s); n%2 == 1 {
+		return s[n/2]
+	} else {
+		return (s[n/2-1] + s[n/2]) / 2
+	}
 }

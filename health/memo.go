@@ -53,17 +53,19 @@ func (s *Service) modelDuty(ctx context.Context, partNumber string) (rpm, thrust
 // logged run of the model in the fleet, which grows with the fleet and
 // moves little from one flight to the next; so, unless live, the one a
 // fleet recompute (or an earlier read) stored serves while it is younger
-// than Settings.DutyMaxAge. A live read is stored. A model with no run
-// giving both figures is read live each time (nothing is stored for it).
+// than Settings.DutyMaxAge. A live read is stored, also when the model has
+// no duty yet (no run gives both figures), so that is not looked for again
+// on every ingest either.
 func (s *Service) referenceDuty(ctx context.Context, partNumber string, live bool) (rpm, thrustN float64, ok bool, err error) {
 	now := s.Now().UTC()
 	if !live && s.Settings.DutyMaxAge > 0 {
-		if rpm, thrustN, ok, err = s.DB.StoredModelDuty(ctx, partNumber, now.Add(-s.Settings.DutyMaxAge)); ok || err != nil {
+		rpm, thrustN, ok, found, err := s.DB.StoredModelDuty(ctx, partNumber, now.Add(-s.Settings.DutyMaxAge))
+		if found || err != nil {
 			return rpm, thrustN, ok, err
 		}
 	}
-	if rpm, thrustN, ok, err = s.DB.ModelDuty(ctx, partNumber); err != nil || !ok {
-		return rpm, thrustN, ok, err
+	if rpm, thrustN, ok, err = s.DB.ModelDuty(ctx, partNumber); err != nil {
+		return 0, 0, false, err
 	}
-	return rpm, thrustN, true, s.DB.SaveModelDuty(ctx, partNumber, rpm, thrustN, now)
+	return rpm, thrustN, ok, s.DB.SaveModelDuty(ctx, partNumber, rpm, thrustN, ok, now)
 }
