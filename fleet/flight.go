@@ -105,6 +105,15 @@ type FlightPack struct {
 	Slot       int    `json:"slot"`
 }
 
+// UnmeasuredPackCycles is what a pack's flight counts towards its
+// equivalent full cycles when its charge was not measured (a manual entry,
+// a log that gave no figures): one full cycle, about the most one flight
+// takes from a pack (common practice: packs are flown down to a reserve and
+// recharged between flights). Counting it as nothing would let a cycle
+// limit fall due later than the pack's use; one cycle errs early, the safe
+// side.
+const UnmeasuredPackCycles = 1.0
+
 // MaxFlightDuration bounds one flight; a longer span is almost certainly a
 // typing error in a manual entry (common practice: multirotor endurance is
 // well under a few hours).

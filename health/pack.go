@@ -13,14 +13,18 @@ import (
 
 // PackView is a pack's health.
 type PackView struct {
-	Chemistry   fleet.Chemistry `json:"chemistry"`
-	CellsS      int             `json:"cells_s"`
-	RatedMah    float64         `json:"rated_mah"`
-	Flights     int             `json:"flights"`
-	Cycles      float64         `json:"cycles"` // equivalent full cycles
-	CapacityMah *float64        `json:"capacity_mah"`
-	SoH         *float64        `json:"soh"`
-	Capacity    []CapacityPoint `json:"capacity_series"`
+	Chemistry fleet.Chemistry `json:"chemistry"`
+	CellsS    int             `json:"cells_s"`
+	RatedMah  float64         `json:"rated_mah"`
+	Flights   int             `json:"flights"`
+	Cycles    float64         `json:"cycles"` // equivalent full cycles
+	// CyclesAssumed counts the flights in Cycles whose charge was not
+	// measured (a manual entry, a log that gave no figures): each is
+	// counted as one full cycle (fleet.UnmeasuredPackCycles).
+	CyclesAssumed int             `json:"cycles_assumed"`
+	CapacityMah   *float64        `json:"capacity_mah"`
+	SoH           *float64        `json:"soh"`
+	Capacity      []CapacityPoint `json:"capacity_series"`
 	// Forecast is the capacity-fade forecast (mAh against cycles) and its
 	// end-of-life crossing; nil before any capacity estimate.
 	Forecast     *ForecastView       `json:"forecast"`
@@ -155,7 +159,14 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 			ci++
 		}
 		if f.ChargeMah == nil {
-			continue // a manual entry: no figures
+			// No figures (a manual entry, a log that gave none): the pack
+			// still flew, so the flight counts as the store's sums count it.
+			pv.CyclesAssumed++
+			cycles += fleet.UnmeasuredPackCycles
+			if f.TakeoffAt.After(recent) {
+				recentCycles += fleet.UnmeasuredPackCycles
+			}
+			continue
 		}
 		used := *f.ChargeMah / specs.RatedMah
 		cycles += used

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"encoding/json"
+	"strconv"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -108,7 +109,7 @@ func (db *DB) Uses(ctx context.Context, s Subject, from time.Time, until *time.T
 			  AND ($3::timestamptz IS NULL OR fl.takeoff_at < $3)`
 	case s.AirframeID == nil: // a pack
 		q = `SELECT fl.takeoff_at, extract(epoch FROM fl.landing_at - fl.takeoff_at) / 3600, 0::float8,
-				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), 0)
+				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), ` + unmeasuredCycles + `)
 			FROM flight_packs fp JOIN flights fl ON fl.id = fp.flight_id JOIN parts p ON p.id = fp.part_id
 			WHERE fp.part_id = $1 AND fl.takeoff_at >= $2 AND ($3::timestamptz IS NULL OR fl.takeoff_at < $3)`
 	default:
@@ -218,6 +219,10 @@ type DueFilter struct {
 
 // dueItemsSQL lists due items, most urgent first ($1 status, $2 airframe,
 // $3 forecast before, $4 subject; empty or NULL: any).
+// unmeasuredCycles is fleet.UnmeasuredPackCycles as SQL: what a pack's
+// flight without a measured charge adds to its cycles.
+var unmeasuredCycles = strconv.FormatFloat(fleet.UnmeasuredPackCycles, 'f', -1, 64) + "::float8"
+
 const dueItemsSQL = `
 		SELECT ` + dueItemCols + `
 		FROM due_items d ` + dueItemJoins + `

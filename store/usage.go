@@ -103,7 +103,7 @@ func RuleUsageSQL(r *fleet.ServiceRule, airframeID string, packs []string) (stri
 		FROM d CROSS JOIN LATERAL (` + agg("d", flights) + `) a (` + out + `)`, args
 	case r.AppliesTo == string(fleet.KindPack):
 		flights := `SELECT fl.takeoff_at AS t, fl.landing_at - fl.takeoff_at AS air, 0::float8 AS rev,
-				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), 0) AS cyc
+				coalesce(fp.charge_mah / nullif((p.specs->>'rated_mah')::float8, 0), ` + unmeasuredCycles + `) AS cyc
 			FROM flight_packs fp JOIN flights fl ON fl.id = fp.flight_id JOIN parts p ON p.id = fp.part_id
 			WHERE fp.part_id = d.id AND fl.takeoff_at >= least(d.since, ` + recent + `)`
 		return q + `
