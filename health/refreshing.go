@@ -14,16 +14,26 @@ import (
 // flights are about 160 kB of JSON the database would decompress and print
 // again). A nil Refreshing is a refresh already done.
 type Refreshing struct {
-	done   chan struct{}
-	err    error
+	done chan struct{}
+	err  error
+	// mark is the flight's store.FlightMark read before the refresh began
+	// (markOK false: it could not be read).
+	mark   int64
+	markOK bool
 	mu     sync.Mutex
 	parts  map[string]json.RawMessage
 	trends map[string]json.RawMessage
 }
 
-// StartRefresh starts Refresh of the flight on another goroutine.
+// StartRefresh starts Refresh of the flight on another goroutine, once it
+// has read the flight's mark (Mark): before the refresh and whatever runs
+// beside it read anything, so a flight recorded meanwhile shows as a
+// different mark afterwards.
 func (s *Service) StartRefresh(ctx context.Context, flightID string) *Refreshing {
 	r := &Refreshing{done: make(chan struct{}), parts: map[string]json.RawMessage{}, trends: map[string]json.RawMessage{}}
+	if m, err := s.DB.FlightMark(ctx, flightID); err == nil {
+		r.mark, r.markOK = m, true
+	}
 	c := *s
 	c.stored = r
 	go func() {
@@ -32,6 +42,10 @@ func (s *Service) StartRefresh(ctx context.Context, flightID string) *Refreshing
 	}()
 	return r
 }
+
+// Mark is the flight's store.FlightMark read before the refresh began; ok
+// is false when it could not be read.
+func (r *Refreshing) Mark() (mark int64, ok bool) { return r.mark, r.markOK }
 
 // Done is closed when the refresh has ended.
 func (r *Refreshing) Done() <-chan struct{} { return r.done }

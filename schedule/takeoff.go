@@ -53,7 +53,47 @@ func (p *Programme) AfterFlight(ctx context.Context, f *fleet.Flight, fresh *hea
 	if _, e := p.RecomputeAirframeBeside(ctx, f.AirframeID, packs, fresh); err == nil {
 		err = e
 	}
+	if e := p.catchUp(ctx, f, packs, fresh); err == nil {
+		err = e
+	}
 	return p.recomputeChanged(ctx, f.AirframeID, r.Airframes, err)
+}
+
+// maxCatchUps bounds catchUp's rounds: each needs yet another flight of the
+// same airframe or packs recorded during the one before.
+const maxCatchUps = 3
+
+// catchUp refreshes the flight's views and recomputes its airframe's due
+// list again when a flight of the same airframe or packs was recorded after
+// the refresh began (two uploads at once: each one's work may miss the
+// other's flight, and the list written last would stand until the
+// scheduled recompute). Whichever work writes last sees the grown mark
+// here, since the other flight was recorded before this check (else that
+// flight's own work, begun after it was recorded, would write later), and
+// reads everything again.
+func (p *Programme) catchUp(ctx context.Context, f *fleet.Flight, packs []string, fresh *health.Refreshing) error {
+	if fresh == nil || p.Health == nil {
+		return nil
+	}
+	seen, ok := fresh.Mark()
+	if !ok {
+		return nil // nothing to compare; the scheduled recompute repairs
+	}
+	<-fresh.Done() // the views are written (a list with no rule on them does not wait)
+	for range maxCatchUps {
+		now, err := p.DB.FlightMark(ctx, f.ID)
+		if err != nil || now == seen {
+			return err
+		}
+		seen = now
+		if err := p.Health.Refresh(ctx, f.ID); err != nil {
+			return err
+		}
+		if _, err := p.RecomputeAirframe(ctx, f.AirframeID, packs); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // AfterRecord brings what rests on the flights up to date after a record
