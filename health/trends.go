@@ -2,6 +2,7 @@ package health
 
 import (
 	"context"
+	"math"
 	"time"
 
 	"github.com/rotorwright/rotorwright/store"
@@ -11,14 +12,20 @@ import (
 // TrendsView is an airframe's efficiency and vibration trends over its
 // recent logged flights.
 type TrendsView struct {
-	AirframeID      string             `json:"airframe_id"`
-	ComputedAt      time.Time          `json:"computed_at"`
-	Flights         int                `json:"flights"`
-	LimitPct        float64            `json:"limit_pct"`
-	EfficiencyIndex *TrendView         `json:"efficiency_index"`
-	Vibration       *TrendView         `json:"vibration_rms"`
-	Flagged         bool               `json:"flagged"`
-	Series          []store.TrendPoint `json:"series"`
+	AirframeID      string     `json:"airframe_id"`
+	ComputedAt      time.Time  `json:"computed_at"`
+	Flights         int        `json:"flights"`
+	LimitPct        float64    `json:"limit_pct"`
+	EfficiencyIndex *TrendView `json:"efficiency_index"`
+	Vibration       *TrendView `json:"vibration_rms"`
+	// VibrationBandHz is the band of the flights the vibration trend is
+	// over: the latest flight's, and those measured over the same band
+	// (SameBand); VibrationOtherBand counts the flights with a vibration
+	// figure left out for another band (logged at another rate).
+	VibrationBandHz    *[2]float64        `json:"vibration_band_hz"`
+	VibrationOtherBand int                `json:"vibration_other_band"`
+	Flagged            bool               `json:"flagged"`
+	Series             []store.TrendPoint `json:"series"`
 }
 
 // TrendView is one robust (Theil-Sen) trend.
@@ -67,14 +74,50 @@ func (s *Service) trendsFrom(airframeID string, pts []store.TrendPoint, now time
 		if p.EfficiencyIndex != nil {
 			eff = append(eff, *p.EfficiencyIndex)
 		}
-		if p.VibrationRMS != nil {
-			vib = append(vib, *p.VibrationRMS)
+	}
+	// Vibration RMS over another band is another measure (a slower log's
+	// band reaches down to manoeuvres and stops lower), so the trend takes
+	// the flights measured over the latest flight's band only.
+	for i := len(pts) - 1; i >= 0; i-- {
+		if pts[i].VibrationRMS != nil {
+			tv.VibrationBandHz = pts[i].VibrationBandHz
+			break
 		}
+	}
+	for _, p := range pts {
+		if p.VibrationRMS == nil {
+			continue
+		}
+		if !SameBand(p.VibrationBandHz, tv.VibrationBandHz) {
+			tv.VibrationOtherBand++
+			continue
+		}
+		vib = append(vib, *p.VibrationRMS)
 	}
 	tv.EfficiencyIndex = s.trend(eff)
 	tv.Vibration = s.trend(vib)
 	tv.Flagged = (tv.EfficiencyIndex != nil && tv.EfficiencyIndex.Flag) || (tv.Vibration != nil && tv.Vibration.Flag)
 	return tv
+}
+
+// bandTolerance is how far (relative) two flights' band edges may differ and
+// the bands still count as one: a log's mean sample rate wanders a little
+// around its set rate, while a change of set rate is a step of a factor
+// (common practice: loggers offer rates such as 10, 25, 50 Hz).
+const bandTolerance = 0.1
+
+// SameBand reports whether two vibration bands (nil: unknown) are one
+// (both known and their edges within bandTolerance, or both unknown).
+func SameBand(a, b *[2]float64) bool {
+	if a == nil || b == nil {
+		return a == b
+	}
+	for i := range a {
+		if math.Abs(a[i]-b[i]) > bandTolerance*math.Max(math.Abs(a[i]), math.Abs(b[i])) {
+			return false
+		}
+	}
+	return true
 }
 
 // minTrendFlights is the fewest flights a trend is fitted to (a robust slope

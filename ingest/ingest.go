@@ -344,6 +344,9 @@ func toAnalysis(m *telemetry.Metrics, f *fleet.Flight, facts *store.FlightFacts,
 		IRmOhm: m.IRMohm, HoverRPM: m.HoverRPM, ThrustK: m.ThrustK, EfficiencyIndex: m.EfficiencyIndex,
 		VibrationRMS: vibrationTotal(m.Vibration), LandingG: m.LandingG, MaxAltM: m.MaxAltM,
 		DistanceM: m.DistanceM, AirDensity: m.AirDensity}}
+	if v := m.Vibration; v != nil && a.Key.VibrationRMS != nil {
+		a.Key.VibrationSampleHz, a.Key.VibrationCutoffHz = &v.SampleHz, &v.CutoffHz
+	}
 	for _, r := range m.Motors {
 		bins, err := json.Marshal(r.Bins)
 		if err != nil {

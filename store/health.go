@@ -292,14 +292,33 @@ type TrendPoint struct {
 	TakeoffAt       time.Time `json:"takeoff_at"`
 	EfficiencyIndex *float64  `json:"efficiency_index"`
 	VibrationRMS    *float64  `json:"vibration_rms"`
+	// VibrationBandHz is the band VibrationRMS was measured over: the
+	// high-pass corner and half the sample rate (null when not known).
+	VibrationBandHz *[2]float64 `json:"vibration_band_hz"`
+}
+
+// trendPointCols are a trend point's columns of flights f and
+// flight_metrics m, in scanTrendPoint's order.
+const trendPointCols = `f.id, f.takeoff_at, m.efficiency_index, m.vibration_rms, m.vibration_cutoff_hz,
+	m.vibration_sample_hz / 2`
+
+// scanTrendPoint scans trendPointCols after the leading destinations.
+func scanTrendPoint(r pgx.Row, lead ...any) (TrendPoint, error) {
+	var p TrendPoint
+	var lo, hi *float64
+	err := r.Scan(append(lead, &p.FlightID, &p.TakeoffAt, &p.EfficiencyIndex, &p.VibrationRMS, &lo, &hi)...)
+	if lo != nil && hi != nil {
+		p.VibrationBandHz = &[2]float64{*lo, *hi}
+	}
+	return p, err
 }
 
 // AirframeTrendPoints returns the last n logged flights of an airframe
 // taking off before the moment before (nil: all), oldest first.
 func (db *DB) AirframeTrendPoints(ctx context.Context, airframeID string, n int, before *time.Time) ([]TrendPoint, error) {
 	rows, err := db.pool.Query(ctx, `
-		SELECT id, takeoff_at, efficiency_index, vibration_rms FROM (
-			SELECT f.id, f.takeoff_at, m.efficiency_index, m.vibration_rms
+		SELECT * FROM (
+			SELECT `+trendPointCols+`
 			FROM flights f JOIN flight_metrics m ON m.flight_id = f.id
 			WHERE f.airframe_id = $1 AND ($3::timestamptz IS NULL OR f.takeoff_at < $3)
 			ORDER BY f.takeoff_at DESC LIMIT $2) last
@@ -307,10 +326,7 @@ func (db *DB) AirframeTrendPoints(ctx context.Context, airframeID string, n int,
 	if err != nil {
 		return nil, translate(err)
 	}
-	return collect(rows, func(r pgx.Row) (TrendPoint, error) {
-		var p TrendPoint
-		return p, r.Scan(&p.FlightID, &p.TakeoffAt, &p.EfficiencyIndex, &p.VibrationRMS)
-	})
+	return collect(rows, func(r pgx.Row) (TrendPoint, error) { return scanTrendPoint(r) })
 }
 
 // SavePartHealth stores a part's computed health view.

@@ -119,10 +119,10 @@ func (db *DB) StrikesOf(ctx context.Context, airframeIDs, partIDs []string) ([]*
 // one query: the last n logged flights of each, oldest first.
 func (db *DB) AirframeTrendPointsOf(ctx context.Context, airframeIDs []string, n int) (map[string][]TrendPoint, error) {
 	rows, err := db.pool.Query(ctx, `
-		SELECT a.id::text, last.id, last.takeoff_at, last.efficiency_index, last.vibration_rms
+		SELECT a.id::text, last.*
 		FROM unnest($1::uuid[]) AS a (id)
 		CROSS JOIN LATERAL (
-			SELECT f.id, f.takeoff_at, m.efficiency_index, m.vibration_rms
+			SELECT `+trendPointCols+`
 			FROM flights f JOIN flight_metrics m ON m.flight_id = f.id
 			WHERE f.airframe_id = a.id
 			ORDER BY f.takeoff_at DESC LIMIT $2) last
@@ -134,8 +134,8 @@ func (db *DB) AirframeTrendPointsOf(ctx context.Context, airframeIDs []string, n
 	out := map[string][]TrendPoint{}
 	for rows.Next() {
 		var id string
-		var p TrendPoint
-		if err := rows.Scan(&id, &p.FlightID, &p.TakeoffAt, &p.EfficiencyIndex, &p.VibrationRMS); err != nil {
+		p, err := scanTrendPoint(rows, &id)
+		if err != nil {
 			return nil, translate(err)
 		}
 		out[id] = append(out[id], p)

@@ -52,7 +52,10 @@ func (db *DB) FlightFacts(ctx context.Context, airframeID string, packIDs []stri
 type KeyMetrics struct {
 	RunS, MinCellV, RestVStart, RestVEnd, IRmOhm, HoverRPM, ThrustK *float64
 	EfficiencyIndex, VibrationRMS, LandingG, MaxAltM, DistanceM     *float64
-	ChargeMah, EnergyWh, MeanPowerW, PeakA, MinPackV, AirDensity    float64
+	// VibrationSampleHz and VibrationCutoffHz give the band VibrationRMS
+	// was measured over (telemetry.Vibration).
+	VibrationSampleHz, VibrationCutoffHz                         *float64
+	ChargeMah, EnergyWh, MeanPowerW, PeakA, MinPackV, AirDensity float64
 }
 
 // MotorRun is one rotor's figures on a flight.
@@ -213,18 +216,19 @@ func writeAnalysis(ctx context.Context, tx pgx.Tx, flightID, airframeID string, 
 	if _, err := tx.Exec(ctx, `
 		INSERT INTO flight_metrics (flight_id, run_s, charge_mah, energy_wh, mean_power_w, peak_a, min_pack_v,
 			min_cell_v, rest_v_start, rest_v_end, ir_mohm, hover_rpm, thrust_k, efficiency_index, vibration_rms,
-			landing_g, max_alt_m, distance_m, air_density, metrics)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20)
+			landing_g, max_alt_m, distance_m, air_density, metrics, vibration_sample_hz, vibration_cutoff_hz)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22)
 		ON CONFLICT (flight_id) DO UPDATE SET run_s = EXCLUDED.run_s, charge_mah = EXCLUDED.charge_mah,
 			energy_wh = EXCLUDED.energy_wh, mean_power_w = EXCLUDED.mean_power_w, peak_a = EXCLUDED.peak_a,
 			min_pack_v = EXCLUDED.min_pack_v, min_cell_v = EXCLUDED.min_cell_v, rest_v_start = EXCLUDED.rest_v_start,
 			rest_v_end = EXCLUDED.rest_v_end, ir_mohm = EXCLUDED.ir_mohm, hover_rpm = EXCLUDED.hover_rpm,
 			thrust_k = EXCLUDED.thrust_k, efficiency_index = EXCLUDED.efficiency_index,
 			vibration_rms = EXCLUDED.vibration_rms, landing_g = EXCLUDED.landing_g, max_alt_m = EXCLUDED.max_alt_m,
-			distance_m = EXCLUDED.distance_m, air_density = EXCLUDED.air_density, metrics = EXCLUDED.metrics`,
+			distance_m = EXCLUDED.distance_m, air_density = EXCLUDED.air_density, metrics = EXCLUDED.metrics,
+			vibration_sample_hz = EXCLUDED.vibration_sample_hz, vibration_cutoff_hz = EXCLUDED.vibration_cutoff_hz`,
 		flightID, k.RunS, k.ChargeMah, k.EnergyWh, k.MeanPowerW, k.PeakA, k.MinPackV, k.MinCellV, k.RestVStart,
 		k.RestVEnd, k.IRmOhm, k.HoverRPM, k.ThrustK, k.EfficiencyIndex, k.VibrationRMS, k.LandingG, k.MaxAltM,
-		k.DistanceM, k.AirDensity, a.Metrics); err != nil {
+		k.DistanceM, k.AirDensity, a.Metrics, k.VibrationSampleHz, k.VibrationCutoffHz); err != nil {
 		return err
 	}
 	if _, err := tx.Exec(ctx, `DELETE FROM motor_runs WHERE flight_id = $1`, flightID); err != nil {

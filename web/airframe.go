@@ -79,8 +79,15 @@ func AirframePage(in AirframeInput) (AirframeData, error) {
 		if err != nil {
 			return d, err
 		}
+		// Only the flights of the trend's band: RMS over another band is
+		// another measure (the page says how many are left out).
 		d.Vibration, err = TrendChart("vibration", "Vibration", "vibration RMS (m/s²)",
-			t.Series, func(p store.TrendPoint) *float64 { return p.VibrationRMS }, t.Vibration, t.LimitPct)
+			t.Series, func(p store.TrendPoint) *float64 {
+				if !health.SameBand(p.VibrationBandHz, t.VibrationBandHz) {
+					return nil
+				}
+				return p.VibrationRMS
+			}, t.Vibration, t.LimitPct)
 	}
 	return d, err
 }

@@ -22,6 +22,7 @@ var funcs = template.FuncMap{
 	"add":     func(a, b int) int { return a + b },
 	"joinstr": strings.Join,
 	"minutes": func(a, b time.Time) float64 { return b.Sub(a).Minutes() },
+	"band":    func(b *[2]float64) string { return fmt.Sprintf("%s–%s Hz", num(2, b[0]), num(1, b[1])) },
 }
 
 func day(t any) string {
