@@ -27,7 +27,11 @@ func (s *Server) accessLog() gin.HandlerFunc {
 		if route == "" {
 			route = "unmatched"
 		}
-		attrs := []slog.Attr{
+		// A record without the caller's program counter: Logger.LogAttrs
+		// walks the stack for it on every line, and every access line
+		// comes from here.
+		r := slog.NewRecord(time.Now(), slog.LevelInfo, "request", 0)
+		r.AddAttrs(
 			slog.String("method", c.Request.Method),
 			slog.String("route", route),
 			slog.String("path", c.Request.URL.Path),
@@ -36,13 +40,13 @@ func (s *Server) accessLog() gin.HandlerFunc {
 			slog.Float64("duration_ms", float64(time.Since(start).Microseconds())/1000),
 			slog.String("remote", clientAddr(c)),
 			slog.String("request_id", c.GetString(ctxRequestID)),
-		}
+		)
 		if id := c.GetString(ctxClientRequestID); id != "" {
-			attrs = append(attrs, slog.String("client_request_id", id))
+			r.AddAttrs(slog.String("client_request_id", id))
 		}
 		if code := c.GetString(ctxProblemCode); code != "" {
-			attrs = append(attrs, slog.String("problem", code))
+			r.AddAttrs(slog.String("problem", code))
 		}
-		s.log.LogAttrs(c.Request.Context(), slog.LevelInfo, "request", attrs...)
+		_ = s.log.Handler().Handle(c.Request.Context(), r) // a line that cannot be written is not the request's failure
 	}
 }
