@@ -98,7 +98,13 @@ func (s *Server) createFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	s.afterFlight(ctx, out, nil)
+	// The health of what it carried is refreshed as after a logged flight
+	// (a pack's flights and cycles count it), with the due list beside.
+	fresh := s.health.StartRefresh(ctx, out.ID)
+	s.afterFlight(ctx, out, fresh)
+	if <-fresh.Done(); fresh.Err() != nil {
+		s.log.Error("health after a flight", "flight", out.ID, "err", fresh.Err()) // repaired by the next refresh or recompute
+	}
 	d, err := s.db.FlightDetail(ctx, out.ID)
 	if err != nil {
 		s.fail(c, err)
