@@ -25,10 +25,7 @@ func TestAfterFlightCatchesUpWithAFlightRecordedMeanwhile(t *testing.T) {
 	r := b.rule(fleet.ServiceRule{AppliesTo: "motor", BearingPct: fp(80)})
 	// Recorded with no work after it (no refresh, no due list).
 	record := func(seed uint64, at time.Time) string {
-		spec := sim.DefaultSpec(seed)
-		spec.Airframe, spec.Start = a.Code, at
-		spec.SampleHz, spec.DurationS = 5, 240
-		spec.Packs[0].Serial = pk.Serial
+		spec := b.spec(a, pk, seed, at, 5, 240)
 		var buf bytes.Buffer
 		if _, err := sim.Generate(spec, &buf); err != nil {
 			t.Fatal(err)

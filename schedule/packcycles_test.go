@@ -6,7 +6,6 @@ import (
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
-	"github.com/rotorwright/rotorwright/internal/sim"
 )
 
 // A pack's flight whose charge was not measured (a manual entry) counts as
@@ -25,11 +24,7 @@ func TestUnmeasuredPackFlightCountsAFullCycle(t *testing.T) {
 	for i := range manual {
 		b.flight(a, b.ago(time.Duration(12-i)*day), 18*time.Minute, pk)
 	}
-	spec := sim.DefaultSpec(731)
-	spec.Airframe, spec.Start = a.Code, b.ago(2*day)
-	spec.SampleHz, spec.DurationS = 5, 300
-	spec.Packs[0].Serial = pk.Serial
-	tr := b.logged(a, pk, spec)
+	tr := b.logged(a, pk, b.spec(a, pk, 731, b.ago(2*day), 5, 300))
 	b.recompute(a, pk)
 
 	// The simulator's charge is the reference; the log's figure recovers it

@@ -180,6 +180,16 @@ func (b *bench) flight(a *fleet.Airframe, at time.Time, d time.Duration, packs .
 	return out
 }
 
+// spec is the simulator's default flight (seed) of the airframe with the
+// pack, taking off at at, logged at hz for durS seconds.
+func (b *bench) spec(a *fleet.Airframe, pk *fleet.Part, seed uint64, at time.Time, hz, durS float64) sim.FlightSpec {
+	s := sim.DefaultSpec(seed)
+	s.Airframe, s.Start = a.Code, at
+	s.SampleHz, s.DurationS = hz, durS
+	s.Packs[0].Serial = pk.Serial
+	return s
+}
+
 // logged ingests one simulated flight (health refreshed) and returns the
 // simulator's truth.
 func (b *bench) logged(a *fleet.Airframe, pk *fleet.Part, spec sim.FlightSpec) sim.Truth {

@@ -9,7 +9,6 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/health"
-	"github.com/rotorwright/rotorwright/internal/sim"
 )
 
 // An airframe whose logs changed sample rate, its vibration unchanged (the
@@ -27,11 +26,7 @@ func TestVibrationTrendKeepsToOneBand(t *testing.T) {
 	b.fullQuad(a, b.ago(30*day), 2000, "PR-10")
 	pk := b.pack(4, "")
 	fly := func(i int, hz float64) {
-		spec := sim.DefaultSpec(uint64(900 + i))
-		spec.Airframe, spec.Start = a.Code, b.ago(time.Duration(20-i)*day)
-		spec.SampleHz, spec.DurationS = hz, 300
-		spec.Packs[0].Serial = pk.Serial
-		b.logged(a, pk, spec)
+		b.logged(a, pk, b.spec(a, pk, uint64(900+i), b.ago(time.Duration(20-i)*day), hz, 300))
 	}
 	const fast, slow = 6, 5
 	for i := range fast {
@@ -81,11 +76,7 @@ func TestVibrationBandBackfill(t *testing.T) {
 	b.fullQuad(a, b.ago(30*day), 2000, "PR-10")
 	pk := b.pack(4, "")
 	for i, hz := range []float64{5, 50} {
-		spec := sim.DefaultSpec(uint64(950 + i))
-		spec.Airframe, spec.Start = a.Code, b.ago(time.Duration(5-i)*day)
-		spec.SampleHz, spec.DurationS = hz, 120
-		spec.Packs[0].Serial = pk.Serial
-		b.logged(a, pk, spec)
+		b.logged(a, pk, b.spec(a, pk, uint64(950+i), b.ago(time.Duration(5-i)*day), hz, 120))
 	}
 	sql, err := os.ReadFile("../migrations/030_vibration_band.sql")
 	if err != nil {
