@@ -2,6 +2,8 @@ package store
 
 import (
 	"context"
+	"strconv"
+	"strings"
 
 	"github.com/jackc/pgx/v5"
 
@@ -67,31 +69,56 @@ type EventFilter struct {
 	Open                               *bool // true: unresolved only; false: resolved only
 }
 
-const eventsSQL = `
-	SELECT ` + eventCols + ` FROM events
-	WHERE ($1::uuid IS NULL OR id > $1)
-	  AND ($2::uuid IS NULL OR airframe_id = $2) AND ($3::uuid IS NULL OR part_id = $3)
-	  AND ($4::uuid IS NULL OR flight_id = $4) AND ($5 = '' OR kind = $5)
-	  AND ($6::boolean IS NULL OR (resolved_at IS NULL) = $6)
-	ORDER BY id LIMIT $7`
-
-// eventArgs are eventsSQL's arguments for a filter and a page (one more
-// than the page, to tell whether another follows).
-func eventArgs(f EventFilter, p Page) ([]any, error) {
+// eventsQuery is the statement listing the events a filter selects, one
+// page (one more than the page, to tell whether another follows), with only
+// the conditions the filter and page set: as dueItemsQuery, one statement
+// per combination, so the database keeps a plan for each instead of
+// planning a catch-all form on every call (a refresh lists events for
+// every propeller and pack it computes).
+func eventsQuery(f EventFilter, p Page) (string, []any, error) {
 	after, err := p.afterID()
 	if err != nil {
-		return nil, err
+		return "", nil, err
 	}
-	return []any{after, nilIfEmpty(f.AirframeID), nilIfEmpty(f.PartID), nilIfEmpty(f.FlightID), f.Kind, f.Open, p.Limit + 1}, nil
+	var where []string
+	var args []any
+	add := func(cond string, v any) {
+		args = append(args, v)
+		where = append(where, strings.ReplaceAll(cond, "$?", "$"+strconv.Itoa(len(args))))
+	}
+	if after != nil {
+		add(`id > $?::uuid`, *after)
+	}
+	if f.AirframeID != "" {
+		add(`airframe_id = $?::uuid`, f.AirframeID)
+	}
+	if f.PartID != "" {
+		add(`part_id = $?::uuid`, f.PartID)
+	}
+	if f.FlightID != "" {
+		add(`flight_id = $?::uuid`, f.FlightID)
+	}
+	if f.Kind != "" {
+		add(`kind = $?`, f.Kind)
+	}
+	if f.Open != nil {
+		add(`(resolved_at IS NULL) = $?::boolean`, *f.Open)
+	}
+	q := `SELECT ` + eventCols + ` FROM events`
+	if len(where) > 0 {
+		q += ` WHERE ` + strings.Join(where, ` AND `)
+	}
+	args = append(args, p.Limit+1)
+	return q + ` ORDER BY id LIMIT $` + strconv.Itoa(len(args)), args, nil
 }
 
 // Events lists events in id order, one keyset page.
 func (db *DB) Events(ctx context.Context, f EventFilter, p Page) ([]*fleet.Event, string, error) {
-	args, err := eventArgs(f, p)
+	q, args, err := eventsQuery(f, p)
 	if err != nil {
 		return nil, "", err
 	}
-	rows, err := db.pool.Query(ctx, eventsSQL, args...)
+	rows, err := db.pool.Query(ctx, q, args...)
 	if err != nil {
 		return nil, "", translate(err)
 	}

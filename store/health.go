@@ -197,7 +197,7 @@ type PackRecords struct {
 // (its PartID set to the pack's), first page only.
 func (db *DB) PackRecordsOf(ctx context.Context, partID string, events EventFilter, p Page) (*PackRecords, error) {
 	events.PartID = partID
-	args, err := eventArgs(events, p)
+	eq, args, err := eventsQuery(events, p)
 	if err != nil {
 		return nil, err
 	}
@@ -205,7 +205,7 @@ func (db *DB) PackRecordsOf(ctx context.Context, partID string, events EventFilt
 	b.Queue(packFlightsSQL, partID)
 	b.Queue(packChecksSQL, partID)
 	b.Queue(rulesSQL)
-	b.Queue(eventsSQL, args...)
+	b.Queue(eq, args...)
 	br := db.pool.SendBatch(ctx, b)
 	defer br.Close()
 	var out PackRecords
