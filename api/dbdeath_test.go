@@ -94,8 +94,11 @@ func TestDatabaseDiesMidTransaction(t *testing.T) {
 		t.Fatal(err)
 	}
 	logs := &syncBuffer{}
-	e := &env{t: t, db: db, h: api.New(db, slog.New(slog.NewTextHandler(logs, nil)), api.DefaultLimits, nil).Handler(),
-		tokens: map[fleet.Role]string{tech: token}}
+	srv := api.New(db, slog.New(slog.NewTextHandler(logs, nil)), api.DefaultLimits, nil)
+	// The server's key listener holds a connection; it goes before the
+	// pool closes (cleanups run last first), or closing the pool waits.
+	t.Cleanup(srv.Close)
+	e := &env{t: t, db: db, h: srv.Handler(), tokens: map[fleet.Role]string{tech: token}}
 	job := e.create("/v1/jobs", map[string]any{"code": "DD-1", "client": "c"})
 	// Hold the job's row so the PATCH's transaction waits inside the database.
 	holder, err := db.Pool().Begin(ctx)
@@ -140,6 +143,12 @@ func TestDatabaseDiesMidTransaction(t *testing.T) {
 		if strings.Contains(line, "level=ERROR") && !strings.Contains(line, `msg="database lost"`) {
 			t.Errorf("a database outage is logged as an internal error:\n%s", logs.String())
 		}
+	}
+	// Let the server finish restarting before the cleanup stops it: asked
+	// to stop in the middle of its restart, it took pg_ctl's whole minute
+	// to go (in about one run of five).
+	for deadline := time.Now().Add(30 * time.Second); db.Ping(ctx) != nil && time.Now().Before(deadline); {
+		time.Sleep(50 * time.Millisecond)
 	}
 }
 
