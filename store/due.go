@@ -229,29 +229,40 @@ var unmeasuredCycles = strconv.FormatFloat(fleet.UnmeasuredPackCycles, 'f', -1, 
 // plan worth keeping, so it was planned again on every call (0.18 ms, more
 // than it took to run, on every readiness answer).
 func dueItemsQuery(f DueFilter) (string, []any) {
-	var where []string
-	var args []any
-	add := func(cond string, v any) {
-		args = append(args, v)
-		where = append(where, strings.ReplaceAll(cond, "$?", "$"+strconv.Itoa(len(args))))
-	}
+	var w where
 	if f.Status != "" {
-		add(`d.status = $?`, f.Status)
+		w.add(`d.status = $?`, f.Status)
 	}
 	if f.AirframeID != "" {
-		add(`d.airframe_id = $?::uuid`, f.AirframeID)
+		w.add(`d.airframe_id = $?::uuid`, f.AirframeID)
 	}
 	if f.Before != nil {
-		add(`(d.status = 'overdue' OR d.forecast_date < $?::timestamptz)`, *f.Before)
+		w.add(`(d.status = 'overdue' OR d.forecast_date < $?::timestamptz)`, *f.Before)
 	}
 	if f.SubjectID != "" {
-		add(`d.subject_id = $?::uuid`, f.SubjectID)
+		w.add(`d.subject_id = $?::uuid`, f.SubjectID)
 	}
-	q := `SELECT ` + dueItemCols + ` FROM due_items d ` + dueItemJoins
-	if len(where) > 0 {
-		q += ` WHERE ` + strings.Join(where, ` AND `)
+	return `SELECT ` + dueItemCols + ` FROM due_items d ` + dueItemJoins + w.sql() + ` ORDER BY ` + dueUrgency, w.args
+}
+
+// where gathers a statement's conditions and their arguments, numbering
+// each condition's placeholder ($?) as it is added.
+type where struct {
+	conds []string
+	args  []any
+}
+
+func (w *where) add(cond string, v any) {
+	w.args = append(w.args, v)
+	w.conds = append(w.conds, strings.ReplaceAll(cond, "$?", "$"+strconv.Itoa(len(w.args))))
+}
+
+// sql is the WHERE clause, empty without conditions.
+func (w *where) sql() string {
+	if len(w.conds) == 0 {
+		return ""
 	}
-	return q + ` ORDER BY ` + dueUrgency, args
+	return ` WHERE ` + strings.Join(w.conds, ` AND `)
 }
 
 // dueItemCols, dueItemJoins and dueUrgency are a due item as the due list

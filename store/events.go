@@ -3,7 +3,6 @@ package store
 import (
 	"context"
 	"strconv"
-	"strings"
 
 	"github.com/jackc/pgx/v5"
 
@@ -80,36 +79,27 @@ func eventsQuery(f EventFilter, p Page) (string, []any, error) {
 	if err != nil {
 		return "", nil, err
 	}
-	var where []string
-	var args []any
-	add := func(cond string, v any) {
-		args = append(args, v)
-		where = append(where, strings.ReplaceAll(cond, "$?", "$"+strconv.Itoa(len(args))))
-	}
+	var w where
 	if after != nil {
-		add(`id > $?::uuid`, *after)
+		w.add(`id > $?::uuid`, *after)
 	}
 	if f.AirframeID != "" {
-		add(`airframe_id = $?::uuid`, f.AirframeID)
+		w.add(`airframe_id = $?::uuid`, f.AirframeID)
 	}
 	if f.PartID != "" {
-		add(`part_id = $?::uuid`, f.PartID)
+		w.add(`part_id = $?::uuid`, f.PartID)
 	}
 	if f.FlightID != "" {
-		add(`flight_id = $?::uuid`, f.FlightID)
+		w.add(`flight_id = $?::uuid`, f.FlightID)
 	}
 	if f.Kind != "" {
-		add(`kind = $?`, f.Kind)
+		w.add(`kind = $?`, f.Kind)
 	}
 	if f.Open != nil {
-		add(`(resolved_at IS NULL) = $?::boolean`, *f.Open)
+		w.add(`(resolved_at IS NULL) = $?::boolean`, *f.Open)
 	}
-	q := `SELECT ` + eventCols + ` FROM events`
-	if len(where) > 0 {
-		q += ` WHERE ` + strings.Join(where, ` AND `)
-	}
-	args = append(args, p.Limit+1)
-	return q + ` ORDER BY id LIMIT $` + strconv.Itoa(len(args)), args, nil
+	args := append(w.args, p.Limit+1)
+	return `SELECT ` + eventCols + ` FROM events` + w.sql() + ` ORDER BY id LIMIT $` + strconv.Itoa(len(args)), args, nil
 }
 
 // Events lists events in id order, one keyset page.
