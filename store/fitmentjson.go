@@ -199,40 +199,57 @@ type label struct {
 	json  []byte
 }
 
-// labelCache maps a layout's positions, as stored (JSON), to their labels:
-// keyed by the content itself, so an entry never goes stale. A map under a
-// read lock, not a sync.Map, so that a look-up with the row's bytes
-// allocates nothing.
-var labelCache = struct {
-	sync.RWMutex
-	m map[string][]label
-}{m: map[string][]label{}}
+// parsedLayout is a layout's positions as parsed, with their labels.
+type parsedLayout struct {
+	positions []fleet.Position // shared: callers copy before handing it on
+	labels    []label
+}
 
-func layoutLabels(positions []byte) ([]label, error) {
-	labelCache.RLock()
-	v, ok := labelCache.m[string(positions)]
-	labelCache.RUnlock()
+// layoutCache maps a layout's positions, as stored (JSON), to them parsed:
+// keyed by the content itself, so an entry never goes stale (an edited
+// layout is other JSON). The fitment and readiness answers read a layout
+// every time and a fleet has a few. A map under a read lock, not a
+// sync.Map, so that a look-up with the row's bytes allocates nothing.
+var layoutCache = struct {
+	sync.RWMutex
+	m map[string]*parsedLayout
+}{m: map[string]*parsedLayout{}}
+
+const maxLayoutCache = 256 // layouts are few; never grows without bound
+
+// parseLayout returns the positions JSON parsed, from layoutCache when it
+// holds them.
+func parseLayout(positions []byte) (*parsedLayout, error) {
+	layoutCache.RLock()
+	v, ok := layoutCache.m[string(positions)]
+	layoutCache.RUnlock()
 	if ok {
 		return v, nil
 	}
-	var ps []fleet.Position
-	if err := json.Unmarshal(positions, &ps); err != nil {
+	v = &parsedLayout{}
+	if err := json.Unmarshal(positions, &v.positions); err != nil {
 		return nil, err
 	}
-	out := make([]label, len(ps))
-	for i, p := range ps {
+	v.labels = make([]label, len(v.positions))
+	for i, p := range v.positions {
 		js, err := json.Marshal(p.Label)
 		if err != nil {
 			return nil, err
 		}
-		out[i] = label{label: p.Label, json: js}
+		v.labels[i] = label{label: p.Label, json: js}
 	}
-	labelCache.Lock()
-	if len(labelCache.m) < maxLabelCache { // layouts are few; never grows without bound
-		labelCache.m[string(positions)] = out
+	layoutCache.Lock()
+	if len(layoutCache.m) < maxLayoutCache {
+		layoutCache.m[string(positions)] = v
 	}
-	labelCache.Unlock()
-	return out, nil
+	layoutCache.Unlock()
+	return v, nil
 }
 
-const maxLabelCache = 256
+func layoutLabels(positions []byte) ([]label, error) {
+	l, err := parseLayout(positions)
+	if err != nil {
+		return nil, err
+	}
+	return l.labels, nil
+}

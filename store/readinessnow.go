@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/json"
 	"slices"
-	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -130,39 +129,10 @@ func scanLayout(row pgx.Row) (*fleet.Layout, error) {
 	if err := row.Scan(&l.Name, &l.Builtin, &raw); err != nil {
 		return nil, err
 	}
-	var err error
-	l.Positions, err = parsedPositions.get(raw)
-	return &l, err
-}
-
-// parsedPositions keeps layouts' positions as parsed, keyed by their JSON:
-// every readiness answer reads its airframe's layout, a fleet has a few
-// layouts, and parsing the same arrays again was about 6 % of the answer's
-// CPU. An edited layout has other JSON, so it is parsed anew; each caller
-// gets a copy. At most maxParsedLayouts are kept (then it parses).
-var parsedPositions = &positionCache{m: map[string][]fleet.Position{}}
-
-const maxParsedLayouts = 256
-
-type positionCache struct {
-	mu sync.RWMutex
-	m  map[string][]fleet.Position
-}
-
-func (c *positionCache) get(raw []byte) ([]fleet.Position, error) {
-	c.mu.RLock()
-	ps, ok := c.m[string(raw)]
-	c.mu.RUnlock()
-	if ok {
-		return slices.Clone(ps), nil
-	}
-	if err := json.Unmarshal(raw, &ps); err != nil {
+	parsed, err := parseLayout(raw)
+	if err != nil {
 		return nil, err
 	}
-	c.mu.Lock()
-	if len(c.m) < maxParsedLayouts {
-		c.m[string(raw)] = slices.Clone(ps)
-	}
-	c.mu.Unlock()
-	return ps, nil
+	l.Positions = slices.Clone(parsed.positions)
+	return &l, nil
 }
