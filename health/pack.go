@@ -158,20 +158,20 @@ func (s *Service) pack(ctx context.Context, p *fleet.Part, now time.Time, until 
 			addCheck(checks[ci])
 			ci++
 		}
-		if f.ChargeMah == nil {
-			// No figures (a manual entry, a log that gave none): the pack
-			// still flew, so the flight counts as the store's sums count it.
+		// A flight without figures (a manual entry, a log that gave none)
+		// still flew the pack: it counts as the store's sums count it.
+		used := fleet.UnmeasuredPackCycles
+		if f.ChargeMah != nil {
+			used = *f.ChargeMah / specs.RatedMah
+		} else {
 			pv.CyclesAssumed++
-			cycles += fleet.UnmeasuredPackCycles
-			if f.TakeoffAt.After(recent) {
-				recentCycles += fleet.UnmeasuredPackCycles
-			}
-			continue
 		}
-		used := *f.ChargeMah / specs.RatedMah
 		cycles += used
 		if f.TakeoffAt.After(recent) {
 			recentCycles += used
+		}
+		if f.ChargeMah == nil {
+			continue // nothing else to read from it
 		}
 		if f.RestVStart != nil && f.RestVEnd != nil {
 			capMah, err := wear.CapacityFromRest(specs.Chemistry, *f.RestVStart/cells, *f.RestVEnd/cells, *f.ChargeMah, minRestSpan)
