@@ -98,12 +98,10 @@ func (s *Server) createFlight(c *gin.Context) {
 		s.fail(c, err)
 		return
 	}
-	// The health of what it carried is refreshed as after a logged flight
-	// (a pack's flights and cycles count it), with the due list beside.
-	fresh := s.health.StartRefresh(ctx, out.ID)
-	s.afterFlight(ctx, out, fresh)
-	if <-fresh.Done(); fresh.Err() != nil {
-		s.log.Error("health after a flight", "flight", out.ID, "err", fresh.Err()) // repaired by the next refresh or recompute
+	// As after a logged flight: the health of what it carried (a pack's
+	// flights and cycles count it), with the due list beside.
+	if err := s.ingest.Recorded(ctx, out); err != nil {
+		s.log.Error("health after a flight", "flight", out.ID, "err", err) // repaired by the next refresh or recompute
 	}
 	d, err := s.db.FlightDetail(ctx, out.ID)
 	if err != nil {

@@ -176,25 +176,31 @@ func (in *Ingester) Ingest(ctx context.Context, req Request) (Result, error) {
 		return res, nil
 	}
 	// The flight is recorded; a failed refresh is repaired by the next
-	// refresh or a fleet recompute, so it does not fail the upload. After
-	// starts beside it and waits for it only where it needs the views.
+	// refresh or a fleet recompute, so it does not fail the upload.
+	f.ID = id
+	res.HealthErr = in.Recorded(ctx, &f)
+	return res, nil
+}
+
+// Recorded brings what rests on a flight just recorded (logged, or entered
+// by hand) up to date: the health of what it carried is refreshed, and
+// After starts beside the refresh and waits for it only where it needs the
+// views. The error is the refresh's, else After's.
+func (in *Ingester) Recorded(ctx context.Context, f *fleet.Flight) error {
 	var fresh *health.Refreshing
 	if in.Health != nil {
-		fresh = in.Health.StartRefresh(ctx, id)
+		fresh = in.Health.StartRefresh(ctx, f.ID)
 	}
 	var afterErr error
 	if in.After != nil {
-		f.ID = id
-		afterErr = in.After(ctx, &f, fresh)
+		afterErr = in.After(ctx, f, fresh)
 	}
 	if fresh != nil {
-		<-fresh.Done()
-		res.HealthErr = fresh.Err()
+		if <-fresh.Done(); fresh.Err() != nil {
+			return fresh.Err()
+		}
 	}
-	if res.HealthErr == nil {
-		res.HealthErr = afterErr
-	}
-	return res, nil
+	return afterErr
 }
 
 // resolve fills the airframe and packs from the log's metadata when the
