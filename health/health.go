@@ -17,6 +17,12 @@ import (
 	"github.com/rotorwright/rotorwright/store"
 )
 
+// ModelVersion numbers the health model; raise it when a stored view or
+// trend would come out different from the same records (the service then
+// recomputes the older ones when it starts). 1: a pack flight without a
+// measured charge counts one cycle, and vibration trends keep to one band.
+const ModelVersion = 1
+
 // Settings are the fleet-wide model settings.
 type Settings struct {
 	// UtilisationWindow is the trailing window for usage rates (default 30 days).
@@ -103,7 +109,7 @@ func (s *Service) Part(ctx context.Context, partID string) (*View, error) {
 	if err != nil {
 		return nil, err
 	}
-	return v, s.DB.SavePartHealth(ctx, p.ID, v.Status, v, now)
+	return v, s.DB.SavePartHealth(ctx, p.ID, v.Status, v, ModelVersion, now)
 }
 
 // PackAt computes a pack's health view as of the moment at from its flights,

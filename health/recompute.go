@@ -151,12 +151,12 @@ func (s *Service) saveViews(ctx context.Context, rows []store.HealthRow, now tim
 		save = s.DB.SaveAirframeTrendsMany
 	}
 	if s.stored == nil {
-		return save(ctx, rows, now)
+		return save(ctx, rows, ModelVersion, now)
 	}
 	if err := marshalRows(rows); err != nil {
 		return err
 	}
-	if err := save(ctx, rows, now); err != nil {
+	if err := save(ctx, rows, ModelVersion, now); err != nil {
 		return err
 	}
 	s.stored.keep(trends, rows)
@@ -277,7 +277,7 @@ func (s *Service) trendsBatch(ctx context.Context, ids []string) error {
 		tv := s.trendsFrom(id, pts[id], now)
 		rows[i] = store.HealthRow{ID: id, Flagged: tv.Flagged, View: tv}
 	}
-	return s.DB.SaveAirframeTrendsMany(ctx, rows, now)
+	return s.DB.SaveAirframeTrendsMany(ctx, rows, ModelVersion, now)
 }
 
 // rotorRuns is store.RotorRunsOf; for one flight's parts (a refresh after an

@@ -329,17 +329,28 @@ func (db *DB) AirframeTrendPoints(ctx context.Context, airframeID string, n int,
 	return collect(rows, func(r pgx.Row) (TrendPoint, error) { return scanTrendPoint(r) })
 }
 
-// SavePartHealth stores a part's computed health view.
-func (db *DB) SavePartHealth(ctx context.Context, partID, status string, view any, at time.Time) error {
+// SavePartHealth stores a part's computed health view, computed by the
+// health model numbered model.
+func (db *DB) SavePartHealth(ctx context.Context, partID, status string, view any, model int, at time.Time) error {
 	b, err := MarshalView(view)
 	if err != nil {
 		return err
 	}
 	_, err = db.pool.Exec(ctx, `
-		INSERT INTO part_health (part_id, computed_at, status, view) VALUES ($1, $2, $3, $4)
-		ON CONFLICT (part_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, status = EXCLUDED.status, view = EXCLUDED.view`,
-		partID, at, status, b)
+		INSERT INTO part_health (part_id, computed_at, status, view, model_version) VALUES ($1, $2, $3, $4, $5)
+		ON CONFLICT (part_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, status = EXCLUDED.status, view = EXCLUDED.view,
+			model_version = EXCLUDED.model_version`,
+		partID, at, status, b, model)
 	return translate(err)
+}
+
+// StaleViews counts the stored health views and airframe trends computed
+// by a health model numbered below model.
+func (db *DB) StaleViews(ctx context.Context, model int) (parts, airframes int, err error) {
+	err = db.pool.QueryRow(ctx, `
+		SELECT (SELECT count(*) FROM part_health WHERE model_version < $1),
+			(SELECT count(*) FROM airframe_trends WHERE model_version < $1)`, model).Scan(&parts, &airframes)
+	return parts, airframes, translate(err)
 }
 
 // PartHealth returns a part's stored health view (ENOTFOUND when never computed).

@@ -155,22 +155,24 @@ type HealthRow struct {
 
 // SavePartHealths stores many parts' health views in one statement, as
 // SavePartHealth does one.
-func (db *DB) SavePartHealths(ctx context.Context, rows []HealthRow, at time.Time) error {
+func (db *DB) SavePartHealths(ctx context.Context, rows []HealthRow, model int, at time.Time) error {
 	ids, statuses, views, err := healthArrays(rows)
 	if err != nil {
 		return err
 	}
 	_, err = db.pool.Exec(ctx, `
-		INSERT INTO part_health (part_id, computed_at, status, view)
-		SELECT id, $4, status, view::jsonb FROM unnest($1::uuid[], $2::text[], $3::text[]) AS v (id, status, view)
-		ON CONFLICT (part_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, status = EXCLUDED.status, view = EXCLUDED.view`,
-		ids, statuses, views, at)
+		INSERT INTO part_health (part_id, computed_at, status, view, model_version)
+		SELECT id, $4, status, view::jsonb, $5 FROM unnest($1::uuid[], $2::text[], $3::text[]) AS v (id, status, view)
+		ON CONFLICT (part_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, status = EXCLUDED.status, view = EXCLUDED.view,
+			model_version = EXCLUDED.model_version`,
+		ids, statuses, views, at, model)
 	return translate(err)
 }
 
 // SaveAirframeTrendsMany stores airframes' computed trends (each row's
-// Flagged and View) in one statement.
-func (db *DB) SaveAirframeTrendsMany(ctx context.Context, rows []HealthRow, at time.Time) error {
+// Flagged and View), computed by the health model numbered model, in one
+// statement.
+func (db *DB) SaveAirframeTrendsMany(ctx context.Context, rows []HealthRow, model int, at time.Time) error {
 	ids, _, views, err := healthArrays(rows)
 	if err != nil {
 		return err
@@ -180,10 +182,11 @@ func (db *DB) SaveAirframeTrendsMany(ctx context.Context, rows []HealthRow, at t
 		flagged[i] = r.Flagged
 	}
 	_, err = db.pool.Exec(ctx, `
-		INSERT INTO airframe_trends (airframe_id, computed_at, flagged, view)
-		SELECT id, $4, flagged, view::jsonb FROM unnest($1::uuid[], $2::boolean[], $3::text[]) AS v (id, flagged, view)
-		ON CONFLICT (airframe_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, flagged = EXCLUDED.flagged, view = EXCLUDED.view`,
-		ids, flagged, views, at)
+		INSERT INTO airframe_trends (airframe_id, computed_at, flagged, view, model_version)
+		SELECT id, $4, flagged, view::jsonb, $5 FROM unnest($1::uuid[], $2::boolean[], $3::text[]) AS v (id, flagged, view)
+		ON CONFLICT (airframe_id) DO UPDATE SET computed_at = EXCLUDED.computed_at, flagged = EXCLUDED.flagged, view = EXCLUDED.view,
+			model_version = EXCLUDED.model_version`,
+		ids, flagged, views, at, model)
 	return translate(err)
 }
 

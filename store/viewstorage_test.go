@@ -32,10 +32,10 @@ func TestHealthViewsCompressedWithLZ4(t *testing.T) {
 		series = append(series, fmt.Sprintf(`{"at":%q,"value":%g}`, at.Add(time.Duration(i)*time.Hour).Format(time.RFC3339), float64(i)*1e-6))
 	}
 	view := `{"series":[` + strings.Join(series, ",") + `]}`
-	if err := f.db.SavePartHealths(f.ctx, []store.HealthRow{{ID: m.ID, Status: "ok", View: map[string]any{}, JSON: []byte(view)}}, at); err != nil {
+	if err := f.db.SavePartHealths(f.ctx, []store.HealthRow{{ID: m.ID, Status: "ok", View: map[string]any{}, JSON: []byte(view)}}, 1, at); err != nil {
 		t.Fatal(err)
 	}
-	if err := f.db.SaveAirframeTrendsMany(f.ctx, []store.HealthRow{{ID: a.ID, View: map[string]any{"series": series}}}, at); err != nil {
+	if err := f.db.SaveAirframeTrendsMany(f.ctx, []store.HealthRow{{ID: a.ID, View: map[string]any{"series": series}}}, 1, at); err != nil {
 		t.Fatal(err)
 	}
 	for _, q := range []string{

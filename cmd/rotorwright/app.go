@@ -167,7 +167,32 @@ const repackBatch = 50
 
 // startSchedule starts the scheduled jobs (every replica runs the clock; the
 // advisory lock lets one run each tick) and the webhook deliverer.
-func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics) (stop func(), err error) {
+// staleFigures tells whether stored figures came from an older model than
+// this build's: flight logs analysed by an older analysis, or health views
+// and trends computed by an older health model (after an upgrade that
+// changed either). The service then runs the nightly job as it starts
+// (startSchedule), so the board and the due list do not show the old
+// figures until the night.
+func (a *App) staleFigures(ctx context.Context) (bool, error) {
+	logs, err := a.DB.StaleLogs(ctx, ingest.AnalysisVersion)
+	if err != nil {
+		return false, err
+	}
+	parts, airframes, err := a.DB.StaleViews(ctx, health.ModelVersion)
+	if err != nil {
+		return false, err
+	}
+	if logs+parts+airframes == 0 {
+		return false, nil
+	}
+	a.log.Warn("stored figures come from an older model: the nightly job (reanalysis, health views, due list) runs now, "+
+		"in the background; until it ends they show the old figures",
+		"logs", logs, "analysis_version", ingest.AnalysisVersion,
+		"health_views", parts, "airframe_trends", airframes, "health_model", health.ModelVersion)
+	return true, nil
+}
+
+func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics, catchUp bool) (stop func(), err error) {
 	r, err := schedule.NewRunner(a.DB.Pool(), schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log,
 		Observe: m.JobRun})
 	if err != nil {
@@ -234,6 +259,26 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 	m.InitJob("sessions")
 	m.InitJob("repack")
 	r.Start()
+	caughtUp := make(chan struct{})
+	if !catchUp {
+		close(caughtUp)
+	} else {
+		// A replica that finds the job's lock held skips: another runs it.
+		// Stop cancels it (its transaction rolls back; the next start
+		// runs it again).
+		go func() {
+			defer close(caughtUp)
+			res, err := r.RunNow(context.WithoutCancel(ctx), "nightly")
+			switch {
+			case err != nil:
+				a.log.Error("bringing stored figures up to date", "job", "nightly", "run", res.ID, "err", err)
+			case res.Status == schedule.StatusSkipped:
+				a.log.Info("stored figures are brought up to date by another replica", "job", "nightly", "reason", res.Reason)
+			default:
+				a.log.Info("stored figures brought up to date", "job", "nightly", "run", res.ID, "counts", res.Counts)
+			}
+		}()
+	}
 	dctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	done := make(chan struct{})
 	go func() {
@@ -251,6 +296,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 		if err := r.Stop(sctx); err != nil {
 			a.log.Error("stopping scheduled jobs", "err", err)
 		}
+		<-caughtUp
 		cancel()
 		<-done
 	}, nil
@@ -286,18 +332,16 @@ const dbWatchEvery = 5 * time.Second
 
 // Run serves the API until ctx ends, then drains requests and returns.
 func (a *App) Run(ctx context.Context) error {
-	if n, err := a.DB.StaleLogs(ctx, ingest.AnalysisVersion); err != nil {
+	stale, err := a.staleFigures(ctx)
+	if err != nil {
 		return err
-	} else if n > 0 {
-		a.log.Warn("stored flight logs analysed with an older model: their figures are reanalysed by the nightly job, "+
-			"or now with `rotorwright reanalyze`", "logs", n, "analysis_version", ingest.AnalysisVersion)
 	}
 	prog := a.programme()
 	limits := a.cfg.Limits
 	limits.MetricsElsewhere = a.cfg.MetricsAddr != ""
 	srv := api.New(a.DB, a.log, limits, prog)
 	defer srv.Close()
-	stopSchedule, err := a.startSchedule(ctx, prog, srv.Metrics())
+	stopSchedule, err := a.startSchedule(ctx, prog, srv.Metrics(), stale)
 	if err != nil {
 		return err
 	}

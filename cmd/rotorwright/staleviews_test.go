@@ -1,0 +1,89 @@
+package main
+
+import (
+	"context"
+	"io"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/health"
+	"github.com/rotorwright/rotorwright/internal/pgtest"
+	"github.com/rotorwright/rotorwright/schedule"
+	"github.com/rotorwright/rotorwright/store"
+)
+
+// Health views and trends stored by an older health model (as after an
+// upgrade that changed it) are recomputed when the service starts, not left
+// on the board until the nightly job; with every view current, nothing is
+// run at start.
+func TestServiceStartRecomputesViewsOfAnOlderModel(t *testing.T) {
+	t.Parallel()
+	url := pgtest.NewDB(t)
+	ctx := context.Background()
+	db, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	a, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: "OLD-01", Layout: "quad-x", CellsS: 4, PacksPerFlight: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := db.CreatePart(ctx, &fleet.Part{Kind: fleet.KindPack, Serial: "OLD-P1",
+		Specs: []byte(`{"chemistry":"lipo","cells_s":4,"cells_p":1,"rated_mah":8000}`)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := schedule.NewProgramme(db, health.New(db)).RecomputeAll(ctx); err != nil {
+		t.Fatal(err)
+	}
+	// The views as an older model left them: marked, and numbered 0.
+	if _, err := db.Pool().Exec(ctx, `UPDATE part_health SET model_version = 0, view = view || '{"older_model": true}'`); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.Pool().Exec(ctx, `UPDATE airframe_trends SET model_version = 0, view = view || '{"older_model": true}'`); err != nil {
+		t.Fatal(err)
+	}
+
+	logs := &lockedBuffer{}
+	app := newApp(Config{DatabaseURL: url, Addr: "127.0.0.1:0"}, io.Discard, logs)
+	rctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	if err := app.Open(rctx); err != nil {
+		t.Fatal(err)
+	}
+	defer app.Close()
+	done := make(chan error, 1)
+	go func() { done <- app.Run(rctx) }()
+
+	current := func() bool {
+		var n int
+		if err := db.Pool().QueryRow(ctx, `
+			SELECT (SELECT count(*) FROM part_health WHERE part_id = $1 AND model_version = $3 AND NOT view ? 'older_model')
+				+ (SELECT count(*) FROM airframe_trends WHERE airframe_id = $2 AND model_version = $3 AND NOT view ? 'older_model')`,
+			p.ID, a.ID, health.ModelVersion).Scan(&n); err != nil {
+			t.Fatal(err)
+		}
+		return n == 2
+	}
+	for deadline := time.Now().Add(60 * time.Second); !current(); time.Sleep(100 * time.Millisecond) {
+		if time.Now().After(deadline) {
+			t.Fatalf("the older model's views are still stored a minute after the service started:\n%s", logs.String())
+		}
+	}
+	cancel()
+	if err := <-done; err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"stored figures come from an older model", "health_views=1", "airframe_trends=1",
+		"stored figures brought up to date"} {
+		if !strings.Contains(logs.String(), want) {
+			t.Errorf("the log lacks %q:\n%s", want, logs.String())
+		}
+	}
+	if stale, err := app.staleFigures(ctx); err != nil || stale {
+		t.Fatalf("after the start-up run: stale %v, %v", stale, err)
+	}
+}
