@@ -296,6 +296,20 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 // Handler returns the HTTP handler.
 func (s *Server) Handler() http.Handler { return s.engine }
 
+// HTTPServer returns the http.Server the service listens with: the handler
+// and the connection's time limits and header size. The lookup benchmark
+// serves through it too, so its per-request deadlines are measured.
+func (s *Server) HTTPServer() *http.Server {
+	return &http.Server{
+		Handler:           s.engine,
+		ReadHeaderTimeout: 10 * time.Second,
+		ReadTimeout:       5 * time.Minute, // log uploads may be large
+		WriteTimeout:      2 * time.Minute,
+		IdleTimeout:       2 * time.Minute,
+		MaxHeaderBytes:    64 << 10,
+	}
+}
+
 // Close stops the listener behind the key cache (started by the first
 // authentication); call it when the server is done.
 func (s *Server) Close() { s.keys.close() }

@@ -351,14 +351,7 @@ func (a *App) Run(ctx context.Context) error {
 	wctx, stopWatch := context.WithCancel(ctx)
 	defer stopWatch()
 	go srv.WatchDatabase(wctx, dbWatchEvery)
-	a.server = &http.Server{
-		Handler:           srv.Handler(),
-		ReadHeaderTimeout: 10 * time.Second,
-		ReadTimeout:       5 * time.Minute, // log uploads may be large
-		WriteTimeout:      2 * time.Minute,
-		IdleTimeout:       2 * time.Minute,
-		MaxHeaderBytes:    64 << 10,
-	}
+	a.server = srv.HTTPServer()
 	ln, err := net.Listen("tcp", a.cfg.Addr)
 	if err != nil {
 		return fmt.Errorf("listen %s: %w", a.cfg.Addr, err)
