@@ -12,9 +12,7 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
-	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/sim"
-	"github.com/rotorwright/rotorwright/store"
 )
 
 // column-map check says which map a file is read through, how its columns
@@ -22,13 +20,8 @@ import (
 // foreign logs (plain and .csv.gz) through a map.
 func TestColumnMapCheckAndImport(t *testing.T) {
 	t.Parallel()
-	url := pgtest.NewDB(t)
+	url, db := testStore(t)
 	ctx := context.Background()
-	db, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
 	layouts := sim.LogLayouts()
 	var maps []*fleet.ColumnMap
 	for _, l := range layouts {

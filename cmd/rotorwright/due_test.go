@@ -7,7 +7,6 @@ import (
 	"time"
 
 	"github.com/rotorwright/rotorwright/fleet"
-	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/store"
 )
 
@@ -17,22 +16,9 @@ import (
 // a date in the 1700s).
 func TestDueBeyondHorizon(t *testing.T) {
 	t.Parallel()
-	url := pgtest.NewDB(t)
+	url, db := testStore(t)
 	ctx := store.WithActor(context.Background(), store.Actor{Name: "test"})
-	db, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	a, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: "DUE-01", Layout: "quad-x", CellsS: 4, PacksPerFlight: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	pk, err := db.CreatePart(ctx, &fleet.Part{Kind: fleet.KindPack, Serial: "DUE-P1",
-		Specs: []byte(`{"chemistry":"lipo","cells_s":4,"cells_p":1,"rated_mah":8000}`)})
-	if err != nil {
-		t.Fatal(err)
-	}
+	a, pk := quadWithPack(t, ctx, db, "DUE-01", "DUE-P1")
 	at := time.Now().Add(-48 * time.Hour).UTC().Truncate(time.Second)
 	f, err := db.CreateFlight(ctx, &fleet.Flight{AirframeID: a.ID, Pilot: "O. Brandt", TakeoffAt: at,
 		LandingAt: at.Add(10 * time.Minute), Packs: []fleet.FlightPack{{PartID: pk.ID}}})

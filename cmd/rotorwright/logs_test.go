@@ -12,22 +12,15 @@ import (
 
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/ingest"
-	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/sim"
-	"github.com/rotorwright/rotorwright/store"
 )
 
 // import: new logs are imported, a copy is already present, a bad file is
 // refused with its line and column; reanalyze recomputes stored figures.
 func TestImportAndReanalyze(t *testing.T) {
 	t.Parallel()
-	url := pgtest.NewDB(t)
+	url, db := testStore(t)
 	ctx := context.Background()
-	db, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
 	dim := 254.0
 	empty := 1000.0
 	if _, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: "SIM-01", Layout: "quad-x", CellsS: 4, PacksPerFlight: 1,

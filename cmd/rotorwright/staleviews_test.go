@@ -7,11 +7,8 @@ import (
 	"testing"
 	"time"
 
-	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
-	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/schedule"
-	"github.com/rotorwright/rotorwright/store"
 )
 
 // Health views and trends stored by an older health model (as after an
@@ -20,22 +17,9 @@ import (
 // run at start.
 func TestServiceStartRecomputesViewsOfAnOlderModel(t *testing.T) {
 	t.Parallel()
-	url := pgtest.NewDB(t)
+	url, db := testStore(t)
 	ctx := context.Background()
-	db, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	a, err := db.CreateAirframe(ctx, &fleet.Airframe{Code: "OLD-01", Layout: "quad-x", CellsS: 4, PacksPerFlight: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	p, err := db.CreatePart(ctx, &fleet.Part{Kind: fleet.KindPack, Serial: "OLD-P1",
-		Specs: []byte(`{"chemistry":"lipo","cells_s":4,"cells_p":1,"rated_mah":8000}`)})
-	if err != nil {
-		t.Fatal(err)
-	}
+	a, p := quadWithPack(t, ctx, db, "OLD-01", "OLD-P1")
 	if _, err := schedule.NewProgramme(db, health.New(db)).RecomputeAll(ctx); err != nil {
 		t.Fatal(err)
 	}
