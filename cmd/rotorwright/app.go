@@ -273,7 +273,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 			case err != nil:
 				a.log.Error("bringing stored figures up to date", "job", "nightly", "run", res.ID, "err", err)
 			case res.Status == schedule.StatusSkipped:
-				a.log.Info("stored figures are brought up to date by another replica", "job", "nightly", "reason", res.Reason)
+				a.log.Info("another replica is bringing the stored figures up to date", "job", "nightly", "reason", res.Reason)
 			default:
 				a.log.Info("stored figures brought up to date", "job", "nightly", "run", res.ID, "counts", res.Counts)
 			}
