@@ -20,6 +20,7 @@ require (
 	github.com/spf13/cobra v1.10.2
 	github.com/spf13/pflag v1.0.9
 	github.com/valyala/fasthttp v1.79.0
+	go.uber.org/zap v1.28.0
 	golang.org/x/image v0.30.0
 	golang.org/x/sync v0.24.0
 	golang.org/x/time v0.16.0
@@ -30,6 +31,7 @@ require (
 require (
 	github.com/molecule-man/go-brrr v1.3.1 // indirect
 	github.com/valyala/bytebufferpool v1.0.0 // indirect
+	go.uber.org/multierr v1.10.0 // indirect
 )
 
 require (

@@ -10,6 +10,7 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"runtime/pprof"
 	"slices"
@@ -25,6 +26,7 @@ import (
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/health"
+	"github.com/rotorwright/rotorwright/internal/logging"
 	"github.com/rotorwright/rotorwright/internal/pgtest"
 	"github.com/rotorwright/rotorwright/internal/scale"
 	"github.com/rotorwright/rotorwright/schedule"
@@ -147,7 +149,23 @@ func BenchmarkLookups(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	log := slog.New(slog.NewTextHandler(io.Discard, nil))
+	// The service's logger (cmd/rotorwright: internal/logging, text lines
+	// batched) to a pipe read by another process, as a container runtime or
+	// the system journal reads standard error: each request's access line
+	// is formatted and written, not discarded.
+	reader := exec.Command("sh", "-c", "cat > /dev/null")
+	logPipe, err := reader.StdinPipe()
+	if err != nil {
+		b.Fatal(err)
+	}
+	if err := reader.Start(); err != nil {
+		b.Fatal(err)
+	}
+	defer reader.Wait()
+	defer logPipe.Close()
+	logw := logging.NewWriter(logPipe, logging.FlushEvery)
+	defer logw.Stop()
+	log := logging.New(logw, slog.LevelInfo, "text")
 	// Rate limits off: one key at thousands of requests a second is the point.
 	// The service's own http.Server (its timeouts set deadlines on every
 	// request), on a loopback listener.

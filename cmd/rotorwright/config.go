@@ -11,6 +11,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/rotorwright/rotorwright/api"
+	"github.com/rotorwright/rotorwright/internal/logging"
 )
 
 // Config is the service configuration, from the environment and flags,
@@ -143,11 +144,7 @@ func (f *formatFlag) Set(s string) error {
 
 // newLogger is the process's logger in the configured format, to w.
 func newLogger(w io.Writer, level slog.Level, format string) *slog.Logger {
-	opts := &slog.HandlerOptions{Level: level}
-	if format == "json" {
-		return slog.New(slog.NewJSONHandler(w, opts))
-	}
-	return slog.New(slog.NewTextHandler(w, opts))
+	return logging.New(w, level, format)
 }
 
 // envDuration reads a Go duration ("30s", "2m") from the environment.

@@ -15,6 +15,7 @@ import (
 	"strings"
 	"syscall"
 
+	"github.com/rotorwright/rotorwright/internal/logging"
 	"github.com/spf13/cobra"
 )
 
@@ -28,8 +29,13 @@ const (
 
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	code := execute(ctx, os.Args[1:], os.Stdout, os.Stderr)
+	// Standard error in batches of whole lines (one write per batch, not
+	// per access line), flushed within logging.FlushEvery, at once after a
+	// warning or error, and before the process exits.
+	stderr := logging.NewWriter(os.Stderr, logging.FlushEvery)
+	code := execute(ctx, os.Args[1:], os.Stdout, stderr)
 	stop()
+	_ = stderr.Stop()
 	os.Exit(code)
 }
 
