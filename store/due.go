@@ -291,28 +291,12 @@ func scanDueItem(r pgx.Row) (*fleet.DueItem, error) {
 
 // scanDueItemRaw scans a due item leaving its usage undecoded.
 func scanDueItemRaw(r pgx.Row) (*fleet.DueItem, []byte, error) {
-	var usage []byte
-	d, err := scanDueItemInto(r, &usage)
-	return d, usage, err
-}
-
-// scanDueItemInto scans a due item, its usage into usage (nil: skipped).
-func scanDueItemInto(r pgx.Row, usage *[]byte) (*fleet.DueItem, error) {
 	var d fleet.DueItem
-	var u any // a nil interface: pgx skips the column
-	if usage != nil {
-		u = usage
-	}
+	var usage []byte
 	err := r.Scan(&d.RuleID, &d.NoticeID, &d.RuleName, &d.Action, &d.SubjectKind, &d.SubjectID, &d.Subject, &d.AirframeID,
-		&d.PartNumber, &d.LastDoneAt, &d.Since, u, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
+		&d.PartNumber, &d.LastDoneAt, &d.Since, &usage, &d.Fraction, &d.Status, &d.Grounding, &d.Reason,
 		&d.ForecastDate, &d.ForecastReason, &d.ComputedAt)
-	return &d, err
-}
-
-// scanDueItemNoUsage scans a due item without its usage (nil), for
-// answers that weigh the status, not the figures behind it.
-func scanDueItemNoUsage(r pgx.Row) (*fleet.DueItem, error) {
-	return scanDueItemInto(r, nil) // the usage column skipped, not copied
+	return &d, usage, err
 }
 
 // DueItems lists due items, most urgent first.
