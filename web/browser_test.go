@@ -3,6 +3,7 @@ package web_test
 import (
 	"context"
 	"encoding/json"
+	"fmt"
 	"log/slog"
 	"net/http"
 	"net/http/httptest"
@@ -138,14 +139,28 @@ func newBrowser(t testing.TB) *browser {
 	return b
 }
 
-// do runs actions, failing the test on error.
+// do runs actions, failing the test on error with the page the browser is
+// on and how it begins (an action that waits for what never comes fails
+// after 30 s, saying where it waited).
 func (b *browser) do(t testing.TB, actions ...chromedp.Action[chromedp.Void]) {
 	t.Helper()
-	ctx, cancel := context.WithTimeout(b.ctx, 60*time.Second)
+	ctx, cancel := context.WithTimeout(b.ctx, 30*time.Second)
 	defer cancel()
 	if err := chromedp.Do(ctx, actions...); err != nil {
-		t.Fatal(err)
+		t.Fatalf("%v\n%s", err, b.where())
 	}
+}
+
+// where names the page the browser is on and gives the start of its text.
+func (b *browser) where() string {
+	ctx, cancel := context.WithTimeout(b.ctx, 5*time.Second)
+	defer cancel()
+	at, err := chromedp.Run(ctx, chromedp.Location())
+	if err != nil {
+		return "the page could not be read: " + err.Error()
+	}
+	text, _ := chromedp.Run(ctx, chromedp.Evaluate[string](`document.body ? document.body.innerText.slice(0, 400) : ""`))
+	return fmt.Sprintf("on %s, which begins:\n%s", at, text)
 }
 
 // eval evaluates a script expression in the page.
