@@ -13,6 +13,7 @@ import (
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
@@ -36,7 +37,13 @@ type App struct {
 	// Addr is the address the server listens on, once Run has started.
 	Addr   chan string
 	server *http.Server
+	jobs   *schedule.Runner // the scheduled jobs, once Run has started
 }
+
+// jobConns is the size of the scheduled jobs' own pool: a run holds its
+// job's lock in a transaction while it records its start on a second
+// connection, and the four jobs and the start-up run may run at once.
+const jobConns = 2 * 5
 
 // NewApp makes an unopened app that writes to the process's stdout and
 // stderr.
@@ -193,11 +200,28 @@ func (a *App) staleFigures(ctx context.Context) (bool, error) {
 }
 
 func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics, catchUp bool) (stop func(), err error) {
-	r, err := schedule.NewRunner(a.DB.Pool(), schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log,
+	// The jobs' locks are held on connections of their own. Taken from the
+	// API's pool, the locks of the jobs that tick together on the recompute
+	// clock, beside uploads' transactions begun early (up to half the pool),
+	// could hold every connection while the jobs' work waited for one: the
+	// service then answered nothing until restarted.
+	jcfg := a.DB.Pool().Config() // a copy
+	jcfg.MaxConns, jcfg.MinConns = jobConns, 0
+	jpool, err := pgxpool.NewWithConfig(ctx, jcfg)
+	if err != nil {
+		return nil, fmt.Errorf("scheduled jobs' connections: %w", err)
+	}
+	defer func() {
+		if err != nil {
+			jpool.Close()
+		}
+	}()
+	r, err := schedule.NewRunner(jpool, schedule.Config{Recompute: a.cfg.CronRecompute, Nightly: a.cfg.CronNightly, Logger: a.log,
 		Observe: m.JobRun})
 	if err != nil {
 		return nil, err
 	}
+	a.jobs = r
 	cfg := r.Config()
 	// The due list is rewritten in its own single transaction, so a run
 	// interrupted halfway leaves the previous list whole.
@@ -299,6 +323,7 @@ func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *ap
 		<-caughtUp
 		cancel()
 		<-done
+		jpool.Close()
 	}, nil
 }
 

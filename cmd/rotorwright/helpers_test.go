@@ -37,3 +37,5 @@ func quadWithPack(t *testing.T, ctx context.Context, db *store.DB, code, serial 
 	}
 	return a, p
 }
+
+func ip(n int) *int { return &n }
