@@ -4,8 +4,12 @@ import (
 	"context"
 	"errors"
 	"testing"
+	"time"
+
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"github.com/rotorwright/rotorwright/fleet"
+	"github.com/rotorwright/rotorwright/internal/pgtest"
 )
 
 // The stored log is written while the analysis runs, in the flight's own
@@ -41,5 +45,39 @@ func TestUploadFailingAfterLogWrittenLeavesNothing(t *testing.T) {
 	var logOf string
 	if err := r.db.Pool().QueryRow(r.ctx, `SELECT flight_id FROM flight_logs`).Scan(&logOf); err != nil || logOf != id {
 		t.Errorf("the stored log belongs to %q (%v), want the flight %s", logOf, err, id)
+	}
+}
+
+// On a pool of one connection an upload writes its flight at the end: a
+// transaction begun early would hold the only connection while the ingest
+// waits for another (the facts, the verdict), and never end.
+func TestUploadOnAOneConnectionPool(t *testing.T) {
+	t.Parallel()
+	url := pgtest.NewDB(t)
+	cfg, err := pgxpool.ParseConfig(url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg.MaxConns = 1
+	pool, err := pgxpool.NewWithConfig(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(pool.Close)
+	r := newRigOn(t, pool)
+	r.in.Judge = func(ctx context.Context, f *fleet.Flight) (*fleet.Readiness, error) {
+		if _, err := r.db.Airframe(ctx, f.AirframeID); err != nil { // a verdict reads the records
+			return nil, err
+		}
+		return ready(), nil
+	}
+	ctx, cancel := context.WithTimeout(r.ctx, 20*time.Second)
+	defer cancel()
+	r.ctx = ctx
+	if _, _, err := r.upload(0, false); err != nil {
+		t.Fatalf("upload on a one-connection pool: %v", err)
+	}
+	if n := r.count("flights"); n != 1 {
+		t.Fatalf("%d flights, want 1", n)
 	}
 }

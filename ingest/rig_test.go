@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/jackc/pgx/v5/pgxpool"
 	kgzip "github.com/klauspost/compress/gzip"
 
 	"github.com/rotorwright/rotorwright/fleet"
@@ -29,7 +30,13 @@ type rig struct {
 
 func newRig(t *testing.T) *rig {
 	t.Helper()
-	r := &rig{t: t, ctx: store.WithActor(context.Background(), store.Actor{Name: "test"}), db: store.New(pgtest.NewPool(t))}
+	return newRigOn(t, pgtest.NewPool(t))
+}
+
+// newRigOn is newRig on a pool of the caller's.
+func newRigOn(t *testing.T, pool *pgxpool.Pool) *rig {
+	t.Helper()
+	r := &rig{t: t, ctx: store.WithActor(context.Background(), store.Actor{Name: "test"}), db: store.New(pool)}
 	r.in = &ingest.Ingester{DB: r.db}
 	r.spec = sim.DefaultSpec(3)
 	r.spec.DurationS = 300

@@ -49,7 +49,9 @@ func Open(ctx context.Context, url string) (*DB, error) {
 
 // New wraps an existing pool.
 func New(pool *pgxpool.Pool) *DB {
-	return &DB{pool: pool, now: time.Now, early: make(chan struct{}, max(1, pool.Config().MaxConns/2))}
+	// Half the pool, rounded down: on a pool of one connection none (an
+	// early transaction would hold it while the ingest waits for another).
+	return &DB{pool: pool, now: time.Now, early: make(chan struct{}, pool.Config().MaxConns/2)}
 }
 
 // Pool returns the underlying pool.
