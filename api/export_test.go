@@ -14,6 +14,20 @@ func KeyCached(s *Server, token string) bool {
 	return ok && s.keys.live
 }
 
+// HoldExports takes every records-bundle slot, as bundles being written
+// would; release gives them back.
+func HoldExports(s *Server) (release func()) {
+	n := cap(s.exports)
+	for range n {
+		s.exports <- struct{}{}
+	}
+	return func() {
+		for range n {
+			<-s.exports
+		}
+	}
+}
+
 // SetFiguresTTL sets how long the metrics keep the figures read from the
 // database, so a test can read them afresh at each scrape.
 func SetFiguresTTL(s *Server, d time.Duration) {

@@ -61,6 +61,7 @@ type env struct {
 	db     *store.DB
 	log    *slog.Logger
 	h      http.Handler
+	srv    *api.Server // behind h
 	tokens map[fleet.Role]string
 	keys   map[fleet.Role]string // key ids
 }
@@ -69,7 +70,8 @@ func newEnv(t *testing.T) *env {
 	t.Parallel()
 	db := store.New(pgtest.NewPool(t))
 	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelError}))
-	e := &env{t: t, db: db, log: log, h: api.New(db, log, unlimited(api.DefaultLimits), nil).Handler(),
+	srv := api.New(db, log, unlimited(api.DefaultLimits), nil)
+	e := &env{t: t, db: db, log: log, h: srv.Handler(), srv: srv,
 		tokens: map[fleet.Role]string{}, keys: map[fleet.Role]string{}}
 	for _, r := range fleet.Roles {
 		k, tok, err := db.CreateKey(context.Background(), "test "+string(r), r)
@@ -84,7 +86,8 @@ func newEnv(t *testing.T) *env {
 // withLimits is the same environment served with other request limits.
 func (e *env) withLimits(rows int, bytes int64) *env {
 	c := *e
-	c.h = api.New(e.db, e.log, unlimited(api.Limits{LogRows: rows, LogBytes: bytes}), nil).Handler()
+	c.srv = api.New(e.db, e.log, unlimited(api.Limits{LogRows: rows, LogBytes: bytes}), nil)
+	c.h = c.srv.Handler()
 	return &c
 }
 

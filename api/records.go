@@ -6,6 +6,7 @@ import (
 
 	"github.com/gin-gonic/gin"
 
+	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/records"
 	"github.com/rotorwright/rotorwright/store"
 )
@@ -14,10 +15,24 @@ import (
 // raw logs when ?logs=true). The answer is streamed from one database
 // snapshot as it is read; a failure part way aborts the connection, leaving
 // a truncated zip that `rotorwright records verify` refuses.
+//
+// The snapshot holds a pool connection for as long as the client takes to
+// read the zip (up to the write timeout), so at most half the pool's
+// connections are held so (Server.exports): a script fetching every
+// airframe's bundle at once would otherwise leave the rest of the API
+// waiting for a connection.
 func (s *Server) airframeRecords(c *gin.Context) {
 	id, err := pathID(c, "airframe")
 	if err != nil {
 		s.fail(c, err)
+		return
+	}
+	select {
+	case s.exports <- struct{}{}:
+		defer func() { <-s.exports }()
+	default:
+		s.fail(c, &fleet.Error{Code: fleet.EUNAVAILABLE, RetryAfter: 30 * time.Second,
+			Message: "the server is writing as many records bundles as it takes at once; retry shortly"})
 		return
 	}
 	var o records.Options

@@ -7,6 +7,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/rotorwright/rotorwright/api"
 	"github.com/rotorwright/rotorwright/fleet"
 	"github.com/rotorwright/rotorwright/records"
 )
@@ -280,5 +281,29 @@ func TestMonthlyReport(t *testing.T) {
 	}
 	if r := e.call("GET", "/v1/reports/monthly?month=2026-13", fleet.RoleViewer, nil); r.Status != 400 || r.problem(t).Field != "month" {
 		t.Fatalf("bad month: %d", r.Status)
+	}
+}
+
+// A records bundle holds a database connection while it streams, so only
+// so many are written at once: with every slot taken, as by bundles being
+// read, the next is told to come back (503 with Retry-After) rather than
+// waiting for a connection the rest of the API needs; once they are free it
+// is written, and a bundle written gives its slot back.
+func TestRecordsBundlesAtOnceAreCapped(t *testing.T) {
+	e := newEnv(t)
+	a, _, _ := e.simFleet()
+	release := api.HoldExports(e.srv)
+	r := e.call("GET", "/v1/airframes/"+a.ID+"/records", tech, nil)
+	if r.Status != 503 || r.Header.Get("Retry-After") == "" {
+		t.Fatalf("with every bundle slot taken: %d (Retry-After %q) %s", r.Status, r.Header.Get("Retry-After"), r.Body)
+	}
+	if r := e.call("GET", "/v1/airframes/"+a.ID+"/fitment", tech, nil); r.Status != 200 {
+		t.Fatalf("the rest of the API beside them: %d", r.Status)
+	}
+	release()
+	for i := range 3 {
+		if r := e.call("GET", "/v1/airframes/"+a.ID+"/records", tech, nil); r.Status != 200 {
+			t.Fatalf("bundle %d with the slots free: %d %s", i, r.Status, r.Body)
+		}
 	}
 }

@@ -117,6 +117,8 @@ type Server struct {
 	engine  *gin.Engine
 	board   *web.Board
 	keys    *keyCache
+	// exports holds a slot per records bundle being written (airframeRecords).
+	exports chan struct{}
 	// sessionTTL is how long a board sign-in lasts.
 	sessionTTL time.Duration
 }
@@ -240,7 +242,8 @@ func New(db *store.DB, log *slog.Logger, limits Limits, prog *schedule.Programme
 		panic("board templates: " + err.Error()) // embedded: a build defect, caught by the tests
 	}
 	s := &Server{db: db, log: log, limits: limits, health: hs, prog: prog, metrics: newMetrics(), limit: newLimiters(limits),
-		board: board, sessionTTL: DefaultSessionTTL, keys: newKeyCache(db, keyCacheTTL)}
+		board: board, sessionTTL: DefaultSessionTTL, keys: newKeyCache(db, keyCacheTTL),
+		exports: make(chan struct{}, max(1, int(db.Pool().Config().MaxConns)/2))}
 	if s.prog == nil {
 		s.prog = schedule.NewProgramme(db, hs)
 	}
