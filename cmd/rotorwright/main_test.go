@@ -4,9 +4,11 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"io"
 	"net/http"
 	"os"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -18,11 +20,21 @@ func TestMain(m *testing.M) {
 	pgtest.Main(m, migrations.Prepare)
 }
 
-// startApp opens and runs the real app on a free loopback port.
+// startApp opens and runs the real app on a free loopback port, its log
+// on the process's stderr.
 func startApp(t *testing.T, cfg Config) (*App, string, context.CancelFunc) {
 	t.Helper()
+	return runApp(t, cfg, os.Stderr)
+}
+
+// runApp opens and runs the real app on a free loopback port with its log
+// to stderr. stop ends it and waits until Run has returned (so its log is
+// complete), failing the test if Run failed; the test's cleanup stops it
+// too, then closes the app.
+func runApp(t *testing.T, cfg Config, stderr io.Writer) (app *App, addr string, stop func()) {
+	t.Helper()
 	cfg.Addr = "127.0.0.1:0"
-	app := NewApp(cfg)
+	app = newApp(cfg, os.Stdout, stderr)
 	ctx, cancel := context.WithCancel(context.Background())
 	if err := app.Open(ctx); err != nil {
 		cancel()
@@ -30,24 +42,30 @@ func startApp(t *testing.T, cfg Config) (*App, string, context.CancelFunc) {
 	}
 	done := make(chan error, 1)
 	go func() { done <- app.Run(ctx) }()
-	var addr string
-	select {
-	case addr = <-app.Addr:
-	case err := <-done:
-		t.Fatal(err)
-	case <-time.After(30 * time.Second):
-		t.Fatal("app did not start listening")
+	var once sync.Once
+	stop = func() {
+		once.Do(func() {
+			cancel()
+			if err := <-done; err != nil {
+				t.Error(err)
+			}
+		})
 	}
 	t.Cleanup(func() {
-		cancel()
-		if err := <-done; err != nil {
-			t.Error(err)
-		}
+		stop()
 		if err := app.Close(); err != nil {
 			t.Error(err)
 		}
 	})
-	return app, addr, cancel
+	select {
+	case addr = <-app.Addr:
+	case err := <-done:
+		done <- err // for stop
+		t.Fatal(err)
+	case <-time.After(30 * time.Second):
+		t.Fatal("app did not start listening")
+	}
+	return app, addr, stop
 }
 
 func get(t *testing.T, url, token string, v any) int {

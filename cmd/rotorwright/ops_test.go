@@ -2,14 +2,12 @@ package main
 
 import (
 	"bytes"
-	"context"
 	"encoding/json"
 	"io"
 	"net/http"
 	"strings"
 	"sync"
 	"testing"
-	"time"
 
 	"github.com/rotorwright/rotorwright/internal/pgtest"
 )
@@ -37,22 +35,7 @@ func (l *lockedBuffer) String() string {
 // webhook count are wired to /metrics.
 func TestServeJSONLogsAndJobMetrics(t *testing.T) {
 	logs := &lockedBuffer{}
-	app := newApp(Config{DatabaseURL: pgtest.NewDB(t), Addr: "127.0.0.1:0", LogFormat: "json"}, io.Discard, logs)
-	ctx, cancel := context.WithCancel(context.Background())
-	defer cancel()
-	if err := app.Open(ctx); err != nil {
-		t.Fatal(err)
-	}
-	done := make(chan error, 1)
-	go func() { done <- app.Run(ctx) }()
-	var addr string
-	select {
-	case addr = <-app.Addr:
-	case err := <-done:
-		t.Fatal(err)
-	case <-time.After(30 * time.Second):
-		t.Fatal("app did not start listening")
-	}
+	_, addr, stop := runApp(t, Config{DatabaseURL: pgtest.NewDB(t), LogFormat: "json"}, logs)
 	resp, err := http.Get("http://" + addr + "/healthz")
 	if err != nil {
 		t.Fatal(err)
@@ -65,11 +48,7 @@ func TestServeJSONLogsAndJobMetrics(t *testing.T) {
 	}
 	metrics, _ := io.ReadAll(resp.Body)
 	resp.Body.Close()
-	cancel()
-	if err := <-done; err != nil {
-		t.Fatal(err)
-	}
-	app.Close()
+	stop()
 	for _, want := range []string{`rotorwright_job_runs_total{job="recompute",status="failed"} 0`,
 		`rotorwright_job_runs_total{job="nightly",status="ok"} 0`, "rotorwright_webhook_urls 0", "rotorwright_database_up 1"} {
 		if !strings.Contains(string(metrics), want) {

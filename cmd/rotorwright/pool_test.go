@@ -26,25 +26,10 @@ func TestScheduledJobsRunBesideUploadsHoldingConnections(t *testing.T) {
 	} else {
 		url += "?pool_max_conns=4"
 	}
-	logs := &lockedBuffer{}
-	app := newApp(Config{DatabaseURL: url, Addr: "127.0.0.1:0"}, io.Discard, logs)
-	ctx, cancel := context.WithCancel(context.Background())
-	defer cancel()
-	if err := app.Open(ctx); err != nil {
-		t.Fatal(err)
-	}
-	defer app.Close()
+	app, _, _ := runApp(t, Config{DatabaseURL: url}, io.Discard)
+	ctx := context.Background()
 	if n := app.DB.Pool().Config().MaxConns; n != 4 {
 		t.Fatalf("the API's pool has %d connections, want 4", n)
-	}
-	done := make(chan error, 1)
-	go func() { done <- app.Run(ctx) }()
-	select {
-	case <-app.Addr:
-	case err := <-done:
-		t.Fatal(err)
-	case <-time.After(30 * time.Second):
-		t.Fatal("app did not start listening")
 	}
 	a, _ := quadWithPack(t, ctx, app.DB, "POOL-01", "POOL-P1")
 	if _, err := app.DB.CreateRule(ctx, &fleet.ServiceRule{Name: "pack check", AppliesTo: "pack", Flights: ip(10), WarnAt: 0.9, Action: "inspect"}); err != nil {
@@ -75,9 +60,5 @@ func TestScheduledJobsRunBesideUploadsHoldingConnections(t *testing.T) {
 		if errs[i] != nil {
 			t.Errorf("job %s beside two uploads: %v", job, errs[i])
 		}
-	}
-	cancel()
-	if err := <-done; err != nil {
-		t.Fatal(err)
 	}
 }

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"io"
 	"strings"
 	"testing"
 	"time"
@@ -32,16 +31,7 @@ func TestServiceStartRecomputesViewsOfAnOlderModel(t *testing.T) {
 	}
 
 	logs := &lockedBuffer{}
-	app := newApp(Config{DatabaseURL: url, Addr: "127.0.0.1:0"}, io.Discard, logs)
-	rctx, cancel := context.WithCancel(ctx)
-	defer cancel()
-	if err := app.Open(rctx); err != nil {
-		t.Fatal(err)
-	}
-	defer app.Close()
-	done := make(chan error, 1)
-	go func() { done <- app.Run(rctx) }()
-
+	app, _, stop := runApp(t, Config{DatabaseURL: url}, logs)
 	current := func() bool {
 		var n int
 		if err := db.Pool().QueryRow(ctx, `
@@ -57,10 +47,7 @@ func TestServiceStartRecomputesViewsOfAnOlderModel(t *testing.T) {
 			t.Fatalf("the older model's views are still stored a minute after the service started:\n%s", logs.String())
 		}
 	}
-	cancel()
-	if err := <-done; err != nil {
-		t.Fatal(err)
-	}
+	stop()
 	for _, want := range []string{"stored figures come from an older model", "health_views=1", "airframe_trends=1",
 		"stored figures brought up to date"} {
 		if !strings.Contains(logs.String(), want) {
