@@ -59,10 +59,8 @@ func ReadinessBatch(airframeID string, at time.Time, packIDs []string) *pgx.Batc
 // notices themselves) with the fields it reads of them; the statement goes
 // on with the subject's condition and the list's order.
 const readinessDueSQL = `SELECT r.name, coalesce(a.code, p.serial, ''), d.status, d.grounding, d.reason
-	FROM due_items d JOIN service_rules r ON r.id = d.rule_id
-		LEFT JOIN airframes a ON d.subject_kind = 'airframe' AND a.id = d.subject_id
-		LEFT JOIN parts p ON d.subject_kind = 'part' AND p.id = d.subject_id
-	WHERE d.status IN ('overdue', 'due_soon') AND `
+	FROM due_items d ` + dueItemJoins + `
+	WHERE d.rule_id IS NOT NULL AND d.status IN ('overdue', 'due_soon') AND `
 
 // scanReadinessDue scans a row of readinessDueSQL.
 func scanReadinessDue(r pgx.Row) (*fleet.DueItem, error) {

@@ -172,8 +172,6 @@ const sessionPurgeBatch = 1000
 // each for a 90,000-row log), so a run stays short after a busy day.
 const repackBatch = 50
 
-// startSchedule starts the scheduled jobs (every replica runs the clock; the
-// advisory lock lets one run each tick) and the webhook deliverer.
 // staleFigures tells whether stored figures came from an older model than
 // this build's: flight logs analysed by an older analysis, or health views
 // and trends computed by an older health model (after an upgrade that
@@ -199,6 +197,9 @@ func (a *App) staleFigures(ctx context.Context) (bool, error) {
 	return true, nil
 }
 
+// startSchedule starts the scheduled jobs (every replica runs the clock; the
+// advisory lock lets one run each tick) and the webhook deliverer; with
+// catchUp it also runs the nightly job at once (staleFigures).
 func (a *App) startSchedule(ctx context.Context, prog *schedule.Programme, m *api.Metrics, catchUp bool) (stop func(), err error) {
 	// The jobs' locks are held on connections of their own. Taken from the
 	// API's pool, the locks of the jobs that tick together on the recompute
